@@ -1,0 +1,1 @@
+"""Data shipped with strainline: material catalog, copper foils, fabrication capability, schemas."""

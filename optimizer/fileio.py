@@ -1,0 +1,52 @@
+"""Small file helpers: atomic writes and safe YAML reading."""
+from __future__ import annotations
+
+import os
+import tempfile
+from pathlib import Path
+from typing import Any
+
+import yaml
+
+from strainline.optimizer.errors import StrainlineError
+
+
+def write_atomic(path: str | os.PathLike[str], data: str | bytes) -> Path:
+    """Write ``data`` to ``path`` through a temporary file in the same folder and ``os.replace``.
+
+    A reader never sees a half-written file and an existing file is only replaced once the new
+    content is complete.
+    """
+    path = Path(path)
+    path.parent.mkdir(parents=True, exist_ok=True)
+    mode = "wb" if isinstance(data, bytes) else "w"
+    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
+    try:
+        with os.fdopen(fd, mode, **({} if mode == "wb" else {"encoding": "utf-8", "newline": ""})) as fh:
+            fh.write(data)
+        os.replace(tmp, path)
+    except BaseException:
+        try:
+            os.unlink(tmp)
+        except FileNotFoundError:
+            pass
+        raise
+    return path
+
+
+def read_yaml(path: str | os.PathLike[str], cls: type[StrainlineError]) -> Any:
+    """Read a YAML file; a missing file or a YAML syntax error becomes one ``cls`` line."""
+    path = Path(path)
+    try:
+        text = path.read_text(encoding="utf-8")
+    except FileNotFoundError:
+        raise cls("file not found", str(path)) from None
+    except (IsADirectoryError, PermissionError, UnicodeDecodeError) as exc:
+        raise cls(f"cannot read: {exc.__class__.__name__}", str(path)) from None
+    try:
+        return yaml.safe_load(text)
+    except yaml.YAMLError as exc:
+        mark = getattr(exc, "problem_mark", None)
+        where = f"line {mark.line + 1}" if mark is not None else "somewhere"
+        problem = getattr(exc, "problem", None) or "invalid YAML"
+        raise cls(f"not valid YAML at {where}: {problem}", str(path)) from None
