@@ -1,0 +1,285 @@
+"""Design-rule findings for a flex bend: pure functions returning frozen records.
+
+Each :class:`Finding` carries its source. Three kinds of source appear:
+
+* published or standard guidance, cited by author/title/year (where the figure itself is recalled
+  and not checked against the printed text, the source says "from memory");
+* the bend model itself (composite beam, Engelmaier), for results outside a model's validity range;
+* trade rules of thumb, marked exactly "common practice, no source".
+
+Nothing here prints or reads files.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Literal, get_args
+
+import numpy as np
+
+from strainline.models.bending import bend_strains
+from strainline.models.fatigue import EXTRAPOLATION_CYCLES
+from strainline.models.stackup import Stackup
+
+Severity = Literal["info", "warning", "error"]
+SEVERITIES: tuple[str, ...] = get_args(Severity)
+Use = Literal["install", "dynamic"]
+USES: tuple[str, ...] = get_args(Use)
+
+COMMON_PRACTICE = "common practice, no source"
+SOURCE_IPC_RATIO = ("IPC-2223 (rev. D/E) bend-ratio guidance by number of copper layers; ratios from memory, "
+                    "not checked against the printed standard")
+SOURCE_BEAM = ("Euler-Bernoulli composite-beam kinematics (J. M. Gere and S. P. Timoshenko, Mechanics of "
+               "Materials, composite beams)")
+SOURCE_EPP = ("elastic-perfectly-plastic copper in the composite-beam force balance (idealisation as in "
+              "N. E. Dowling, Mechanical Behavior of Materials); rerun with --plastic")
+SOURCE_ENGELMAIER = ("W. Engelmaier, ASTM STP 736 (1981), with IPC-TM-650 2.4.2.1: calibrated on low-cycle "
+                     "foil flex tests")
+SOURCE_TR484 = ("IPC-TR-484 (1986), copper foil ductility round robin (W. Engelmaier): annealed wrought "
+                "foil for severe or high-cycle flexing")
+SOURCE_BUTTON = ("K. Smith, 'Decreasing Bend Radius and Improving Reliability, Part I', trade-magazine "
+                 "column (2019): button plating keeps panel plating off the bend")
+
+#: Copper strain for a one-time install bend (common practice, no source).
+INSTALL_STRAIN_LIMIT: float = 0.02
+#: Inner radius over thickness for a one-time bend (common practice, no source).
+ONE_TIME_RATIO: float = 10.0
+#: Inner radius over thickness for dynamic flexing (common practice, no source).
+DYNAMIC_RATIO: float = 25.0
+#: IPC-2223 bend ratios as recalled (from memory): install 6 / 12 / 24 (1, 2, >= 3 copper layers),
+#: dynamic 100 / 150 (1, 2 copper layers); dynamic multilayer not recommended (None).
+IPC2223_INSTALL_RATIO: dict[int, float] = {1: 6.0, 2: 12.0, 3: 24.0}
+IPC2223_DYNAMIC_RATIO: dict[int, float | None] = {1: 100.0, 2: 150.0, 3: None}
+
+
+@dataclass(frozen=True)
+class Finding:
+    """One design-rule finding.
+
+    Parameters
+    ----------
+    code : str
+        Stable machine-readable code (e.g. ``"copper-strain-install"``).
+    severity : {"info", "warning", "error"}
+    message : str
+        One sentence for a person.
+    source : str
+        Where the rule comes from ("common practice, no source" for rules of thumb).
+    """
+
+    code: str
+    severity: Severity
+    message: str
+    source: str
+
+    def __post_init__(self) -> None:
+        if self.severity not in SEVERITIES:
+            raise ValueError(f"severity {self.severity!r} is not one of {list(SEVERITIES)}")
+        if not self.source.strip():
+            raise ValueError("a finding needs a source")
+
+    def to_dict(self) -> dict[str, str]:
+        return {"code": self.code, "severity": self.severity, "message": self.message, "source": self.source}
+
+
+def ipc2223_bend_ratio(copper_layers: int, use: str) -> float | None:
+    """IPC-2223 minimum inner-radius-to-thickness ratio as recalled (from memory).
+
+    Parameters
+    ----------
+    copper_layers : int
+        Copper layers in the bonded section (>= 1; 3 or more counts as multilayer).
+    use : {"install", "dynamic"}
+
+    Returns
+    -------
+    float or None
+        The ratio; None for a dynamic multilayer, which the guidance does not recommend.
+    """
+    if use not in USES:
+        raise ValueError(f"use {use!r} is not one of {list(USES)}")
+    k = min(max(int(copper_layers), 1), 3)
+    return IPC2223_INSTALL_RATIO[k] if use == "install" else IPC2223_DYNAMIC_RATIO[k]
+
+
+@dataclass(frozen=True)
+class _Leaf:
+    names: tuple[str, ...]
+    thickness_m: float
+    inner_radius_m: float
+    copper_layers: int
+
+
+def _leaves(stackup: Stackup, inner_radius_m: float, inside_bottom: bool) -> list[_Leaf]:
+    """Bonded leaves with their own thickness, nested inner radius and copper count."""
+    layers = stackup.layers
+    ids = stackup.leaf_ids()
+    total = stackup.total_thickness_m
+    y_top = np.cumsum([x.thickness_m for x in layers][::-1])[::-1]
+    out = []
+    for k in sorted(set(ids)):
+        members = [i for i, j in enumerate(ids) if j == k]
+        if layers[members[0]].kind == "air-gap":
+            continue
+        top = float(y_top[members[0]])
+        bottom = top - sum(layers[i].thickness_m for i in members)
+        r = inner_radius_m + (bottom if inside_bottom else total - top)
+        out.append(_Leaf(tuple(layers[i].name for i in members), top - bottom, r,
+                         sum(layers[i].kind == "copper" for i in members)))
+    return out
+
+
+def elastic_copper_strains(stackup: Stackup, inner_radius_m: float, inside_bottom: bool = True,
+                           plane_strain: bool = False) -> np.ndarray:
+    """Worst-face elastic strain of every copper layer (signed fraction), in copper-layer order."""
+    a = stackup.arrays(plane_strain)
+    s = bend_strains(a.thickness_m, a.modulus_pa, inner_radius_m, inside_bottom,
+                     None if a.bonded else a.leaf)
+    cu = np.asarray(stackup.copper_layers, dtype=int)
+    top, bot = s.strain_top[0, cu], s.strain_bottom[0, cu]
+    return np.where(np.abs(top) >= np.abs(bot), top, bot)
+
+
+def bend_findings(stackup: Stackup, inner_radius_m: float, use: str = "install", inside_bottom: bool = True,
+                  plane_strain: bool = False) -> tuple[Finding, ...]:
+    """Design-rule findings for one stackup bent at one inner radius.
+
+    Parameters
+    ----------
+    stackup : Stackup
+    inner_radius_m : float
+        Inner bend radius, m (> 0).
+    use : {"install", "dynamic"}
+        One-time install bend or repeated (dynamic) flexing.
+    inside_bottom : bool
+        True when the bottom face is the inside of the bend.
+    plane_strain : bool
+        Use plane-strain moduli for the strain evaluation.
+
+    Returns
+    -------
+    tuple of Finding
+        Ratio checks per bonded leaf (IPC-2223 recalled ratios; common-practice 10x / 25x), copper
+        strain against ~2 % for an install bend, elastic results above yield, tight-bend validity,
+        glass-reinforced layers, electrodeposited copper in a dynamic bend and the declared
+        bend-area features.
+    """
+    if use not in USES:
+        raise ValueError(f"use {use!r} is not one of {list(USES)}")
+    out: list[Finding] = []
+    leaves = _leaves(stackup, inner_radius_m, inside_bottom)
+    several = len(leaves) > 1
+
+    for leaf in leaves:
+        if leaf.copper_layers == 0:
+            continue  # a copper-free leaf carries no conductor to protect
+        where = f"leaf [{leaf.names[0]} .. {leaf.names[-1]}]" if several else "the stack"
+        ratio = leaf.inner_radius_m / leaf.thickness_m
+        ipc = ipc2223_bend_ratio(leaf.copper_layers, use)
+        if use == "dynamic" and ipc is None:
+            out.append(Finding(
+                "ipc2223-dynamic-multilayer", "warning",
+                f"{where} bonds {leaf.copper_layers} copper layers in a dynamic bend; the guidance does not "
+                "recommend bonded multilayers for dynamic flexing (consider an unbonded bend region)",
+                SOURCE_IPC_RATIO))
+        elif ipc is not None and ratio < ipc:
+            out.append(Finding(
+                "ipc2223-bend-ratio", "warning",
+                f"{where}: inner radius / thickness = {ratio:.1f}, below {ipc:g}:1 for {use} use with "
+                f"{leaf.copper_layers} copper layer(s)",
+                SOURCE_IPC_RATIO))
+        rule = ONE_TIME_RATIO if use == "install" else DYNAMIC_RATIO
+        if ratio < rule:
+            out.append(Finding(
+                "bend-ratio-one-time" if use == "install" else "bend-ratio-dynamic", "warning",
+                f"{where}: inner radius / thickness = {ratio:.1f}, below about {rule:g}x for "
+                f"{'a one-time' if use == 'install' else 'a dynamic'} bend",
+                COMMON_PRACTICE))
+        if ratio < 1.0:
+            out.append(Finding(
+                "tight-bend-beam-model", "info",
+                f"{where}: inner radius below the thickness; the plane-section beam model is approximate here",
+                SOURCE_BEAM))
+
+    cu = stackup.copper_layers
+    if cu:
+        strains = elastic_copper_strains(stackup, inner_radius_m, inside_bottom, plane_strain)
+        k = int(np.argmax(np.abs(strains)))
+        peak, name = float(strains[k]), stackup.layers[cu[k]].name
+        if use == "install" and abs(peak) > INSTALL_STRAIN_LIMIT:
+            out.append(Finding(
+                "copper-strain-install", "warning",
+                f"peak copper strain {100 * peak:+.2f} % in {name} exceeds about "
+                f"{100 * INSTALL_STRAIN_LIMIT:g} % for a one-time install bend",
+                COMMON_PRACTICE))
+        yielded = [stackup.layers[i].name for i, s in zip(cu, strains)
+                   if abs(s) > stackup.layers[i].copper.yield_strength_pa / stackup.layers[i].modulus_pa]
+        if yielded:
+            out.append(Finding(
+                "elastic-above-yield", "warning",
+                f"copper strain above the yield strain sigma_y/E in {', '.join(yielded)}: the elastic result is "
+                "approximate (the neutral axis moves once copper yields)",
+                SOURCE_EPP))
+
+    glass = [x.name for x in stackup.layers if x.glass_reinforced]
+    if glass:
+        out.append(Finding(
+            "glass-in-bend", "warning",
+            f"glass-reinforced dielectric in the bend: {', '.join(glass)}; keep woven glass out of flexing regions",
+            COMMON_PRACTICE))
+    if use == "dynamic":
+        ed = [x.name for x in stackup.layers
+              if x.kind == "copper" and x.copper is not None and x.copper.copper_type == "electrodeposited"]
+        if ed:
+            out.append(Finding(
+                "ed-copper-dynamic", "warning",
+                f"electrodeposited copper in a dynamic bend: {', '.join(ed)}; rolled-annealed foil is preferred",
+                SOURCE_TR484))
+
+    feats = stackup.features
+    if "plated-through-holes" in feats:
+        out.append(Finding("plated-through-holes-in-bend", "warning",
+                           "plated-through holes declared in the bend area; keep plated holes out of the bend",
+                           COMMON_PRACTICE))
+    if "nickel-plating" in feats:
+        out.append(Finding("nickel-plating-in-bend", "warning",
+                           "nickel or other hard plating declared in the bend area; it cracks when flexed",
+                           COMMON_PRACTICE))
+    if "panel-plating" in feats:
+        out.append(Finding("panel-plating-in-bend", "warning",
+                           "panel plating declared in the bend area: it thickens every conductor with plated "
+                           "copper; button plating is preferred",
+                           SOURCE_BUTTON))
+    if "button-plating" in feats:
+        out.append(Finding("button-plating", "info",
+                           "button plating declared: plated copper only at the holes, none on the bend conductors",
+                           SOURCE_BUTTON))
+    return tuple(out)
+
+
+def fatigue_findings(names, cycles, extrapolated, plastic, motion: str) -> tuple[Finding, ...]:
+    """Findings on the Engelmaier lives of the copper layers.
+
+    Parameters
+    ----------
+    names : sequence of str
+        Copper layer names.
+    cycles, extrapolated, plastic : array_like, same length as ``names``
+        From :func:`strainline.models.fatigue.fatigue_life`.
+    motion : str
+        The stated motion (for the message).
+    """
+    out: list[Finding] = []
+    ext = [n for n, e in zip(names, np.asarray(extrapolated, dtype=bool)) if e]
+    if ext:
+        out.append(Finding(
+            "fatigue-extrapolated", "info",
+            f"predicted life beyond {EXTRAPOLATION_CYCLES:.0e} cycles ({motion}) in {', '.join(ext)}: an "
+            "extrapolation of a low-cycle equation, order of magnitude only",
+            SOURCE_ENGELMAIER))
+    pl = [n for n, p in zip(names, np.asarray(plastic, dtype=bool)) if p]
+    if pl:
+        out.append(Finding(
+            "fatigue-plastic", "info",
+            f"copper cycles above its yield strain in {', '.join(pl)} (plastic, low-cycle regime)",
+            SOURCE_ENGELMAIER))
+    return tuple(out)
