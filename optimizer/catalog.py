@@ -34,6 +34,7 @@ from types import MappingProxyType
 from typing import Any
 
 import numpy as np
+import yaml
 from numpy.typing import ArrayLike
 
 from strainline.models.materials import (
@@ -277,11 +278,8 @@ def _pick(table: Mapping[str, Any], name: str, field: str | None) -> Any:
 # validation helpers
 # --------------------------------------------------------------------------------------------
 def _fmt(value: Any) -> str:
-    if value is None:
-        return "nothing"
-    if isinstance(value, (bool, str, list, dict)):
-        return repr(value)
-    return repr(value)
+    """A value as the error message shows it (YAML's empty value reads "nothing")."""
+    return "nothing" if value is None else repr(value)
 
 
 class _File:
@@ -449,7 +447,9 @@ def _parse_materials(doc: Any, f: _File) -> tuple[dict[str, Dielectric], dict[st
         for role, family in (("film", "film"), ("adhesive", "adhesive")):
             part = f.choice(e, role, p, tuple(dielectrics))
             if dielectrics[part].family != family:
-                raise f.err(_join(p, role), f"{part!r} is a {dielectrics[part].family}, not a {family}")
+                raise f.err(
+                    _join(p, role), f"{part!r} has family {dielectrics[part].family!r}, a {role} needs {family!r}"
+                )
             parts[role] = part
         builds_raw = e["builds_um"]
         where = _join(p, "builds_um")
@@ -613,8 +613,40 @@ def _parse_fabrication(doc: Any, f: _File, weight_keys: tuple[str, ...]) -> Fabr
 # --------------------------------------------------------------------------------------------
 # loading
 # --------------------------------------------------------------------------------------------
+class _Duplicate(Exception):
+    def __init__(self, key: Any, line: int) -> None:
+        super().__init__(key, line)
+        self.key, self.line = key, line
+
+
+class _UniqueKeyLoader(yaml.SafeLoader):
+    """Safe YAML loader that refuses a key given twice in one mapping (YAML would keep the last)."""
+
+    def construct_mapping(self, node: yaml.MappingNode, deep: bool = False) -> dict[Any, Any]:
+        seen: set[Any] = set()
+        for key_node, _ in node.value:
+            key = self.construct_object(key_node, deep=deep)
+            try:
+                if key in seen:
+                    raise _Duplicate(key, key_node.start_mark.line + 1)
+                seen.add(key)
+            except TypeError:  # unhashable key: let the base class report it
+                break
+        return super().construct_mapping(node, deep=deep)
+
+
+def _read(path: Path, label: str) -> Any:
+    """Read one catalog file: missing file and YAML syntax via fileio, then duplicate keys."""
+    doc = fileio.read_yaml(path, CatalogError)
+    try:
+        yaml.load(path.read_text(encoding="utf-8"), Loader=_UniqueKeyLoader)  # noqa: S506 - safe loader
+    except _Duplicate as dup:
+        raise CatalogError(f"key {dup.key!r} appears twice (line {dup.line})", label) from None
+    return doc
+
+
 def _load_from(folder: Path, labels: Mapping[str, str], shown: str) -> Catalog:
-    docs = {name: fileio.read_yaml(folder / name, CatalogError) for name in CATALOG_FILES}
+    docs = {name: _read(folder / name, labels[name]) for name in CATALOG_FILES}
     dielectrics, coverlays = _parse_materials(docs["materials.yaml"], _File(labels["materials.yaml"]))
     foils, weights = _parse_copper(docs["copper.yaml"], _File(labels["copper.yaml"]))
     fabrication = _parse_fabrication(docs["fabrication.yaml"], _File(labels["fabrication.yaml"]), tuple(weights))
