@@ -31,7 +31,7 @@ SOURCE_IPC_RATIO = ("IPC-2223 (rev. D/E) bend-ratio guidance by number of copper
 SOURCE_BEAM = ("Euler-Bernoulli composite-beam kinematics (J. M. Gere and S. P. Timoshenko, Mechanics of "
                "Materials, composite beams)")
 SOURCE_EPP = ("elastic-perfectly-plastic copper in the composite-beam force balance (idealisation as in "
-              "N. E. Dowling, Mechanical Behavior of Materials); rerun with --plastic")
+              "N. E. Dowling, Mechanical Behavior of Materials)")
 SOURCE_ENGELMAIER = ("W. Engelmaier, ASTM STP 736 (1981), with IPC-TM-650 2.4.2.1: calibrated on low-cycle "
                      "foil flex tests")
 SOURCE_TR484 = ("IPC-TR-484 (1986), copper foil ductility round robin (W. Engelmaier): annealed wrought "
@@ -217,7 +217,7 @@ def bend_findings(stackup: Stackup, inner_radius_m: float, use: str = "install",
             out.append(Finding(
                 "elastic-above-yield", "warning",
                 f"copper strain above the yield strain sigma_y/E in {', '.join(yielded)}: the elastic result is "
-                "approximate (the neutral axis moves once copper yields)",
+                "approximate (the neutral axis moves once copper yields; see the elastic-perfectly-plastic result)",
                 SOURCE_EPP))
 
     glass = [x.name for x in stackup.layers if x.glass_reinforced]
