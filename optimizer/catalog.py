@@ -613,35 +613,33 @@ def _parse_fabrication(doc: Any, f: _File, weight_keys: tuple[str, ...]) -> Fabr
 # --------------------------------------------------------------------------------------------
 # loading
 # --------------------------------------------------------------------------------------------
-class _Duplicate(Exception):
-    def __init__(self, key: Any, line: int) -> None:
-        super().__init__(key, line)
-        self.key, self.line = key, line
+_COMPOSER = getattr(yaml, "CSafeLoader", yaml.SafeLoader)
 
 
-class _UniqueKeyLoader(yaml.SafeLoader):
-    """Safe YAML loader that refuses a key given twice in one mapping (YAML would keep the last)."""
-
-    def construct_mapping(self, node: yaml.MappingNode, deep: bool = False) -> dict[Any, Any]:
-        seen: set[Any] = set()
-        for key_node, _ in node.value:
-            key = self.construct_object(key_node, deep=deep)
-            try:
-                if key in seen:
-                    raise _Duplicate(key, key_node.start_mark.line + 1)
-                seen.add(key)
-            except TypeError:  # unhashable key: let the base class report it
-                break
-        return super().construct_mapping(node, deep=deep)
+def _duplicate_key(node: yaml.Node | None) -> tuple[str, int] | None:
+    """The first key given twice in one mapping of a composed YAML tree (YAML keeps the last)."""
+    stack = [node] if node is not None else []
+    while stack:
+        n = stack.pop()
+        if isinstance(n, yaml.MappingNode):
+            seen: set[str] = set()
+            for key_node, value_node in n.value:
+                if isinstance(key_node, yaml.ScalarNode):
+                    if key_node.value in seen:
+                        return key_node.value, key_node.start_mark.line + 1
+                    seen.add(key_node.value)
+                stack.append(value_node)
+        elif isinstance(n, yaml.SequenceNode):
+            stack.extend(n.value)
+    return None
 
 
 def _read(path: Path, label: str) -> Any:
-    """Read one catalog file: missing file and YAML syntax via fileio, then duplicate keys."""
+    """Read one catalog file: missing file and YAML syntax via fileio, then refuse duplicate keys."""
     doc = fileio.read_yaml(path, CatalogError)
-    try:
-        yaml.load(path.read_text(encoding="utf-8"), Loader=_UniqueKeyLoader)  # noqa: S506 - safe loader
-    except _Duplicate as dup:
-        raise CatalogError(f"key {dup.key!r} appears twice (line {dup.line})", label) from None
+    dup = _duplicate_key(yaml.compose(path.read_text(encoding="utf-8"), Loader=_COMPOSER))
+    if dup is not None:
+        raise CatalogError(f"key {dup[0]!r} appears twice (line {dup[1]})", label)
     return doc
 
 
