@@ -72,7 +72,6 @@ def _g(x: float) -> str:
 
 def table(headers: Sequence[str], rows: Sequence[Sequence[Any]]) -> str:
     """Aligned plain-text table: text columns left-aligned, number columns right-aligned."""
-    cells = [[str(c) for c in r] for r in rows]
     numeric = [
         all(isinstance(r[i], (int, float)) and not isinstance(r[i], bool) for r in rows) if rows else False
         for i in range(len(headers))
