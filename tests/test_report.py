@@ -1,0 +1,145 @@
+"""report.html content (self-contained, data embedded) and `strainline report` on good and bad input."""
+from __future__ import annotations
+
+import json
+import re
+import shutil
+from pathlib import Path
+
+import pytest
+
+from strainline.optimizer import handoff
+from strainline.optimizer.report import (
+    CAUTION,
+    build_report_html,
+    decision_table,
+    layer_heights,
+    reference_indices,
+    signal_index,
+)
+
+FIXTURE = Path(__file__).parent / "fixtures" / "front_small.json"
+
+
+@pytest.fixture
+def front():
+    return json.loads(FIXTURE.read_text(encoding="utf-8"))
+
+
+@pytest.fixture
+def solved(tmp_path, front):
+    d = tmp_path / "run"
+    d.mkdir()
+    shutil.copy(FIXTURE, d / "front.json")
+    return d
+
+
+def test_report_is_one_self_contained_file_with_the_data(front):
+    page = build_report_html(front)
+    assert not re.search(r"<script[^>]+\bsrc=", page)                # plotly.js inlined, nothing fetched
+    assert "<link" not in page and "<iframe" not in page
+    assert "cdn.plot.ly/plotly" not in page.split("<body>")[1]
+    m = re.search(r'<script type="application/json" id="strainline-data">(.*?)</script>', page, re.S)
+    data = json.loads(m.group(1))
+    assert [c["id"] for c in data["candidates"]] == [c["id"] for c in front["candidates"]]
+    assert data["objectives"] == ["peak_strain_pct", "total_thickness_um", "loss_db_per_m"]
+    assert len(data["dominated"]) == len(front["dominated"])
+    assert data["strain_limit_pct"] == front["study"]["limits"]["peak_strain_pct"]
+    assert CAUTION.replace("'", "&#x27;") in page
+    for word in ("hypervolume", "evaluated", "exhaustive", front["version"]):
+        assert word in page
+
+
+def test_nan_in_front_does_not_break_the_embedded_json(front):
+    front["candidates"][0]["line"]["gap_um"] = float("nan")
+    page = build_report_html(front)
+    m = re.search(r'id="strainline-data">(.*?)</script>', page, re.S)
+    assert json.loads(m.group(1))["candidates"][0]["line"]["gap_um"] is None
+
+
+def test_layer_heights_stack_from_the_bottom_face(front):
+    c = front["candidates"][0]
+    h = layer_heights(c["layers"])
+    assert h[-1][0] == 0.0
+    assert h[0][1] == pytest.approx(c["objectives"]["total_thickness_um"], rel=1e-12)
+    assert all(a[0] == pytest.approx(b[1]) for a, b in zip(h, h[1:]))
+    # exact bend strain at every face, DESIGN.md section 3: (y - y_na) / (R + y_na), bottom face inside
+    y_na, r_um = c["bend"]["neutral_axis_um"], 1000.0 * c["bend"]["inner_radius_mm"]
+    for lay, (bot, top) in zip(c["layers"], h):
+        assert lay["strain_top_pct"] == pytest.approx(100 * (top - y_na) / (r_um + y_na), abs=1e-4)
+        assert lay["strain_bottom_pct"] == pytest.approx(100 * (bot - y_na) / (r_um + y_na), abs=1e-4)
+
+
+def test_signal_and_reference_layers(front):
+    c = front["candidates"][0]
+    assert signal_index(c) == 4
+    assert reference_indices(c) == [2, 7]
+    micro = json.loads(json.dumps(c))
+    micro["line"]["type"] = "microstrip"
+    micro["line"]["layer"] = "L1 ground"
+    assert reference_indices(micro) == [4]            # nearest copper below
+    micro["line"]["layer"] = 1                        # copper layer number from the top
+    assert signal_index(micro) == 2
+
+
+def test_decision_table_keeps_varying_dimensions(front):
+    dims = decision_table(front["candidates"])
+    labels = [d["label"] for d in dims]
+    assert "width (um)" in labels
+    assert "cover adhesive top t (um)" not in labels        # 25 um in every candidate
+    for d in dims:
+        assert len(d["values"]) == len(front["candidates"])
+        assert len(set(map(str, d["values"]))) > 1
+
+
+def test_cli_rebuilds_report_and_sheets(run_cli, solved, front):
+    code, out, err = run_cli("report", solved)
+    assert code == 0, err
+    assert (solved / "report.html").stat().st_size > 1_000_000
+    sheets = sorted(p.name for p in (solved / "handoff").iterdir())
+    assert len(sheets) == 2 * len(front["candidates"]) + 1
+    assert "caution" in out.lower()
+    code, out, err = run_cli("report", solved / "front.json", "--quiet")
+    assert code == 0 and out == ""
+
+
+@pytest.mark.parametrize("content, expect", [
+    (None, "front.json: file not found"),
+    ("{not json", "not valid JSON at line 1"),
+    ("[1, 2]", "expected a JSON object"),
+    ('{"candidates": 3}', "candidates: missing 'candidates'"),
+    ('{"candidates": [{"id": "a b", "objectives": {}}]}', "candidates[0].id"),
+    ('{"candidates": [{"id": "c1", "objectives": {"peak_strain_pct": 1.0}, "layers": []}]}',
+     "candidates[0].objectives.total_thickness_um"),
+    ('{"candidates": [{"id": "c1", "objectives": {"peak_strain_pct": 1.0, "total_thickness_um": 9}, '
+     '"layers": [{"kind": "foil", "thickness_um": 9}]}]}', "candidates[0].layers[0].kind"),
+])
+def test_cli_bad_front_is_one_line_exit_2(run_cli, tmp_path, content, expect):
+    if content is not None:
+        (tmp_path / "front.json").write_text(content, encoding="utf-8")
+    code, out, err = run_cli("report", tmp_path)
+    assert code == 2
+    assert err.count("\n") == 1 and "Traceback" not in err
+    assert expect in err
+    assert not (tmp_path / "report.html").exists() and not (tmp_path / "handoff").exists()
+
+
+def test_cli_missing_folder_exit_2(run_cli, tmp_path):
+    code, out, err = run_cli("report", tmp_path / "nowhere")
+    assert code == 2 and "nowhere" in err and err.count("\n") == 1
+
+
+def test_failure_while_building_leaves_previous_outputs_untouched(run_cli, solved, monkeypatch):
+    assert run_cli("report", solved)[0] == 0
+    before = {p.name: p.read_bytes() for p in (solved / "handoff").iterdir()}
+    report_before = (solved / "report.html").read_bytes()
+
+    def boom(sheet):
+        raise RuntimeError("disk on fire")
+
+    monkeypatch.setattr(handoff, "sheet_csv", boom)
+    code, out, err = run_cli("report", solved)
+    assert code == 1 and "disk on fire" in err
+    assert {p.name: p.read_bytes() for p in (solved / "handoff").iterdir()} == before
+    assert (solved / "report.html").read_bytes() == report_before
+    assert not [p for p in solved.iterdir() if p.name.startswith(".")]

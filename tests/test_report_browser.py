@@ -1,0 +1,148 @@
+"""The report and a sheet in a real headless Chromium (Debian `chromium`, driven by Playwright).
+
+Checks: the page loads from file:// with no console error and no request other than the file
+itself, the front renders one marker per candidate, clicking a marker redraws the cross-section and
+the strain profile with that candidate's figures (compared with front.json), the table sorts, and a
+sheet prints on at most two A4 pages. Screenshots land in pytest's tmp_path for a look after a failure.
+"""
+from __future__ import annotations
+
+import json
+import shutil
+import tempfile
+from pathlib import Path
+
+import pytest
+
+from strainline.optimizer.report import write_all
+
+FIXTURE = Path(__file__).parent / "fixtures" / "front_small.json"
+CHROMIUM = shutil.which("chromium") or "/usr/bin/chromium"
+ARGS = ["--no-sandbox", "--disable-gpu", "--disable-background-networking", "--disable-component-update",
+        "--no-first-run", "--disable-sync"]
+
+
+@pytest.fixture(scope="module")
+def browser_ctx():
+    from playwright.sync_api import sync_playwright
+
+    profile = tempfile.mkdtemp(prefix="strainline-chromium-")
+    with sync_playwright() as p:
+        ctx = p.chromium.launch_persistent_context(profile, executable_path=CHROMIUM, headless=True, args=ARGS,
+                                                   viewport={"width": 1300, "height": 900})
+        try:
+            yield ctx
+        finally:
+            ctx.close()
+    shutil.rmtree(profile, ignore_errors=True)
+
+
+@pytest.fixture(scope="module")
+def built(tmp_path_factory):
+    out = tmp_path_factory.mktemp("report")
+    front = json.loads(FIXTURE.read_text(encoding="utf-8"))
+    write_all(front, out)
+    return out, front
+
+
+def _open(ctx, url):
+    page = ctx.new_page()
+    log = {"errors": [], "requests": []}
+    page.on("console", lambda m: log["errors"].append(m.text) if m.type == "error" else None)
+    page.on("pageerror", lambda e: log["errors"].append(str(e)))
+    page.on("requestfailed", lambda r: log["errors"].append(f"failed: {r.url}"))
+    page.on("request", lambda r: log["requests"].append(r.url))
+    page.goto(url)
+    page.wait_for_function("window.strainline && window.strainline.renders > 0", timeout=30000)
+    return page, log
+
+
+def test_report_loads_offline_and_selecting_updates_plots(browser_ctx, built, tmp_path):
+    out, front = built
+    url = (out / "report.html").as_uri()
+    page, log = _open(browser_ctx, url)
+    try:
+        page.wait_for_timeout(300)
+        page.screenshot(path=str(tmp_path / "report-initial.png"), full_page=True)
+        n = len(front["candidates"])
+        # the front plot is drawn: one marker per candidate in the candidates trace
+        idx = page.evaluate("document.getElementById('front').data.findIndex(t => t.name === 'candidates')")
+        assert idx >= 0
+        n_points = page.evaluate(
+            f"document.querySelectorAll('#front .scatterlayer .trace')[{idx}].querySelectorAll('.point').length")
+        assert n_points == n
+        # click the marker of a candidate that is not selected now
+        start = page.evaluate("window.strainline.state.selected")
+        k = (start + 2) % n
+        box = page.evaluate(
+            f"(() => {{ const r = document.querySelectorAll('#front .scatterlayer .trace')[{idx}]"
+            f".querySelectorAll('.point')[{k}].getBoundingClientRect(); return [r.x + r.width / 2, r.y + r.height / 2]; }})()")
+        page.mouse.click(box[0], box[1])
+        page.wait_for_function(f"window.strainline.state.selected === {k}", timeout=10000)
+        cand = front["candidates"][k]
+        assert cand["id"] in page.evaluate("document.getElementById('section').layout.title.text")
+        assert cand["id"] in page.evaluate("document.getElementById('strain').layout.title.text")
+        assert cand["id"] in page.inner_text("#cand-title")
+        # the strain profile shows this candidate's face strains (front.json values, exactly)
+        xs = page.evaluate("document.getElementById('strain').data.map(t => t.x)")
+        want = [[lay["strain_bottom_pct"], lay["strain_top_pct"]] for lay in cand["layers"] if lay["thickness_um"] > 0]
+        assert xs == want
+        # the cross-section is to scale and the signal trace has the solved width
+        lay = page.evaluate("document.getElementById('section').layout.yaxis")
+        assert lay["scaleanchor"] == "x" and lay["scaleratio"] == 1
+        sig = page.evaluate("document.getElementById('section').data.filter(t => t.name === 'signal')[0].x")
+        assert max(sig) - min(sig) == pytest.approx(cand["line"]["width_um"], rel=1e-12)
+        na = page.evaluate("document.getElementById('section').layout.shapes[0].y0")
+        assert na == cand["bend"]["neutral_axis_um"]
+        # per-layer table follows the selection
+        rows = page.locator("#layer-table tbody tr").count()
+        assert rows == len(cand["layers"])
+        page.screenshot(path=str(tmp_path / "report-selected.png"), full_page=True)
+        assert (tmp_path / "report-selected.png").stat().st_size > 10_000
+
+        # sortable table: total thickness ascending, then descending
+        page.click("#cand-table thead th[data-k='total_thickness_um']")
+        col = page.evaluate("[...document.querySelectorAll('#cand-table thead th')].findIndex(th => th.dataset.k === 'total_thickness_um')")
+        vals = page.evaluate(f"[...document.querySelectorAll('#cand-table tbody tr')].map(r => Number(r.children[{col}].dataset.v))")
+        assert vals == sorted(c["objectives"]["total_thickness_um"] for c in front["candidates"])
+        page.click("#cand-table thead th[data-k='total_thickness_um']")
+        vals = page.evaluate(f"[...document.querySelectorAll('#cand-table tbody tr')].map(r => Number(r.children[{col}].dataset.v))")
+        assert vals == sorted((c["objectives"]["total_thickness_um"] for c in front["candidates"]), reverse=True)
+        # clicking a table row selects too
+        page.click("#cand-table tbody tr:nth-child(1) td:nth-child(1)")
+        thickest = max(range(n), key=lambda i: front["candidates"][i]["objectives"]["total_thickness_um"])
+        page.wait_for_function(f"window.strainline.state.selected === {thickest}", timeout=10000)
+        # objective-pair toggle (three objectives in the fixture) changes the front's axes
+        page.click("#pair-buttons button:nth-child(2)")
+        xt = page.evaluate("document.getElementById('front').layout.xaxis.title.text")
+        assert "total thickness" not in xt
+        # parallel coordinates drawn
+        assert page.evaluate("document.querySelectorAll('#parcoords .y-axis').length") >= 2
+        # cautions in plain view
+        text = page.inner_text("#cautions")
+        assert "IPC-TM-650" in text and "IPC-2223" in text and "IPC-6013" in text and "concept" in text
+    finally:
+        page.close()
+    assert log["errors"] == []
+    assert log["requests"] and all(u.startswith("file://") for u in log["requests"]), log["requests"]
+
+
+def test_sheet_loads_and_prints_on_two_pages_at_most(browser_ctx, built, tmp_path):
+    out, front = built
+    cid = front["candidates"][0]["id"]
+    page = browser_ctx.new_page()
+    errors, requests = [], []
+    page.on("console", lambda m: errors.append(m.text) if m.type == "error" else None)
+    page.on("pageerror", lambda e: errors.append(str(e)))
+    page.on("request", lambda r: requests.append(r.url))
+    try:
+        page.goto((out / "handoff" / f"{cid}.html").as_uri())
+        page.screenshot(path=str(tmp_path / "sheet.png"), full_page=True)
+        pdf = page.pdf(format="A4", print_background=True)
+    finally:
+        page.close()
+    (tmp_path / "sheet.pdf").write_bytes(pdf)
+    pages = pdf.count(b"/Type /Page") - pdf.count(b"/Type /Pages")
+    assert 1 <= pages <= 2, pages
+    assert errors == []
+    assert all(u.startswith("file://") for u in requests)
