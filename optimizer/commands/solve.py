@@ -1,0 +1,119 @@
+"""``strainline solve STUDY.yaml``: search the study's stackups and write the Pareto front."""
+from __future__ import annotations
+
+import argparse
+import sys
+import time
+from pathlib import Path
+
+from strainline.optimizer.errors import InputError
+
+METHODS = ("auto", "exhaustive", "evolutionary")
+
+
+def _positive_int(text: str) -> int:
+    try:
+        v = int(text)
+    except ValueError:
+        raise InputError(f"{text!r} is not an integer", "--budget/--seed/--workers") from None
+    if v < 0:
+        raise InputError(f"{text!r} is out of range; allowed range [0, inf)", "--budget/--seed/--workers")
+    return v
+
+
+def register(subparsers) -> argparse.ArgumentParser:
+    p = subparsers.add_parser(
+        "solve",
+        help="search a study's stackups and write the Pareto front",
+        description="Search the stackups a study allows and write DIR/front.json and DIR/front.csv. "
+        "Estimates for concept work: verify with the fabricator and with flex testing.",
+    )
+    p.add_argument("study", metavar="STUDY.yaml", help="the study file")
+    p.add_argument("--out", metavar="DIR", default=None, help="output folder (default out/<study name>)")
+    p.add_argument("--method", choices=METHODS, default=None, help="search method (default: the study's, else auto)")
+    p.add_argument("--budget", type=_positive_int, default=None, help="evaluation budget of the evolutionary search")
+    p.add_argument("--seed", type=_positive_int, default=None, help="random seed (default: the study's)")
+    p.add_argument("--quiet", action="store_true", help="no progress bar and no table")
+    try:
+        import strainline.optimizer.verify  # noqa: F401
+
+        p.add_argument("--verify", action="store_true", help="field-solve every front candidate")
+        p.add_argument("--workers", type=_positive_int, default=1, help="local worker processes for --verify")
+        p.add_argument("--dask", metavar="ADDRESS", default=None, help="Dask scheduler address for --verify")
+    except ImportError:
+        pass
+    return p
+
+
+def solve(study_path: str | Path, out: str | Path | None = None, method: str | None = None,
+          budget: int | None = None, seed: int | None = None, quiet: bool = True,
+          catalog=None) -> tuple[dict, Path]:
+    """Run a study end to end; return the front object and the output folder (files written).
+
+    Parameters
+    ----------
+    study_path : path
+        The study YAML.
+    out : path, optional
+        Output folder (default ``out/<study name>``).
+    method, budget, seed : optional
+        Override the study's search settings.
+    quiet : bool
+        No progress bar.
+    """
+    from strainline.optimizer.catalog import load_catalog
+    from strainline.optimizer.front import build_front, write_outputs
+    from strainline.optimizer.problem import build_problem
+    from strainline.optimizer.progress import Progress
+    from strainline.optimizer.search import search
+    from strainline.optimizer.space import build_space
+    from strainline.optimizer.study import load_study
+
+    t0 = time.perf_counter()
+    catalog = catalog or load_catalog()
+    study = load_study(study_path, catalog)
+    sp = build_space(study, catalog)
+    problem = build_problem(sp, catalog)
+    m = method or study.search.method
+    b = study.search.budget if budget is None else budget
+    if b < 100:
+        raise InputError(f"{b} is out of range; allowed range [100, inf)", "--budget")
+    s = study.search.seed if seed is None else seed
+    progress = Progress(f"solve {study.name}", quiet=quiet)
+
+    def evaluate(x):
+        e = problem.evaluate(x)
+        return e.F, e.G
+
+    result = search(evaluate, sp.sizes, problem.n_obj, problem.n_con, m, b, s, study.search.population, progress)
+    progress.close()
+    front = build_front(problem, result, catalog, s)
+    front["search"]["seconds"] = round(time.perf_counter() - t0, 3)
+    out_dir = Path(out) if out is not None else Path("out") / study.name
+    return front, out_dir
+
+
+def run(args: argparse.Namespace) -> int:
+    from strainline.optimizer.front import CAUTION, format_table, write_outputs
+
+    front, out_dir = solve(args.study, args.out, args.method, args.budget, args.seed, quiet=args.quiet)
+    if getattr(args, "verify", False):
+        from strainline.optimizer.progress import Progress
+        from strainline.optimizer.verify import verify_front
+
+        prog = Progress("verify", quiet=args.quiet)
+        front = verify_front(front, workers=max(1, args.workers), dask_address=args.dask, progress=prog)
+        prog.close()
+    paths = write_outputs(front, out_dir)
+    if not args.quiet:
+        print(format_table(front))
+    else:
+        s = front["search"]
+        print(f"{len(front['candidates'])} candidates on the front ({s['evaluated']:,} evaluated, "
+              f"{s['feasible']:,} feasible)")
+        if not front["candidates"]:
+            print(s.get("infeasible", {}).get("message", "no feasible stackup"))
+    print("wrote " + ", ".join(str(p) for p in paths))
+    print(f"caution: {CAUTION}")
+    sys.stdout.flush()
+    return 0

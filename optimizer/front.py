@@ -1,0 +1,399 @@
+"""The Pareto front: candidates with every figure needed to recompute them, outputs, hypervolume.
+
+:func:`build_front` turns a search result into the ``front.json`` object (see docs/solve.md);
+:func:`write_outputs` writes ``front.json`` and ``front.csv`` atomically (the report and handoff
+writers hook in there); :func:`front_dataframe` is the flat pandas view; :func:`format_table` the
+short text table ``strainline solve`` prints.
+"""
+from __future__ import annotations
+
+import csv
+import io
+import json
+import math
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from strainline.models.stackup import Layer, Stackup
+from strainline.models.units import GPA, MM, UM
+from strainline.optimizer.problem import CONSTRAINT_TEXT, Problem
+from strainline.optimizer.search import SearchResult, hypervolume
+from strainline.optimizer.space import Space, cu_col, gap_cols
+from strainline.optimizer.study import OBJECTIVE_KEYS
+
+CAUTION = (
+    "Estimates for concept work only: verify with the fabricator's impedance modelling and coupons and "
+    "with flex testing (IPC-TM-650 methods); defer to IPC-2223/IPC-6013 and licensed engineering practice."
+)
+#: Reference point of the hypervolume in normalized objective space (ideal = 0, nadir = 1 on every axis).
+HV_REFERENCE = 1.1
+
+
+def _num(x: Any) -> float | None:
+    """A JSON-safe float (None for nan/inf)."""
+    try:
+        v = float(x)
+    except (TypeError, ValueError):
+        return None
+    return v if math.isfinite(v) else None
+
+
+def _finding(code: str, severity: str, message: str, source: str) -> dict[str, str]:
+    return {"code": code, "severity": severity, "message": message, "source": source}
+
+
+# ------------------------------------------------------------------------------------------------
+# one candidate -> Stackup
+def candidate_stackup(space: Space, x: np.ndarray, name: str = "") -> Stackup:
+    """The :class:`Stackup` record of one candidate (zero-thickness positions dropped).
+
+    Parameters
+    ----------
+    space : Space
+    x : ndarray, (n_var,)
+        The candidate's integer choices.
+    name : str
+    """
+    d = space.decode(np.asarray(x, np.int64).reshape(1, -1))
+    N, L = space.n_cu, space.n_layers
+    sig = int(d.signal[0])
+    names = {0: "top cover film", 1: "top cover adhesive", L - 2: "bottom cover adhesive", L - 1: "bottom cover film"}
+    for i in range(N):
+        names[cu_col(i)] = f"L{i + 1} {'signal' if i == sig else 'ground'}"
+    for g in range(N - 1):
+        a, f, b = gap_cols(g)
+        names[a], names[f], names[b] = (f"gap {g + 1} adhesive (upper)", f"gap {g + 1} dielectric",
+                                        f"gap {g + 1} adhesive (lower)")
+    layers: list[Layer] = []
+    air_t = 0.0
+    for c in range(L):
+        t = float(d.thickness_m[0, c])
+        if d.is_air[0, c]:
+            air_t += t
+            continue
+        if air_t > 0 or (c > 0 and d.is_air[0, c - 1]):
+            layers.append(Layer(f"air gap {sum(1 for x in layers if x.kind == 'air-gap') + 1}", "air-gap",
+                                air_t, 0.0, 0.0, None, None, "air"))
+            air_t = 0.0
+        m = int(d.material[0, c])
+        if m == -1:
+            i = (c - 2) // 4
+            k = int(d.cu_opt[0, i])
+            w, fkey, _ = space.cu_opts[k]
+            foil = space.foils[k]
+            layers.append(Layer(names[c], "copper", t, foil.modulus_pa, foil.poisson, None, None, fkey,
+                                coverage=float(d.coverage[0, c]), copper=foil))
+        elif m >= 0 and t > 0:
+            mat = space.materials[m]
+            layers.append(Layer(names[c], "dielectric", t, mat.modulus_pa, mat.poisson, mat.dk, mat.df, mat.name,
+                                family=mat.family))
+    return Stackup(tuple(layers), name=name)
+
+
+def copper_weight(space: Space, x: np.ndarray, i: int) -> str:
+    """Foil weight key of copper layer ``i`` of one candidate."""
+    s = space.slots(np.asarray(x, np.int64).reshape(1, -1))
+    return space.cu_opts[int(s["cu"][0, i])][0]
+
+
+# ------------------------------------------------------------------------------------------------
+def build_front(problem: Problem, result: SearchResult, catalog: Any, seed: int,
+                study_raw: dict[str, Any] | None = None) -> dict[str, Any]:
+    """The ``front.json`` object of a finished search.
+
+    Parameters
+    ----------
+    problem : Problem
+    result : SearchResult
+    catalog : Catalog
+    seed : int
+    study_raw : dict, optional
+        The study as given (defaults to the study's own ``raw``).
+    """
+    from strainline.models.lines import LineGeometry
+    from strainline.models.lines.evaluate import method_findings, methods_used, range_findings
+    from strainline.optimizer import __version__
+    from strainline.optimizer.bend_report import bend_report
+
+    sp = problem.space
+    study = sp.study
+    arch = result.archive
+    X = arch.X
+    order = np.lexsort(arch.F.T[::-1]) if len(X) else np.array([], np.int64)
+    X, F = X[order], arch.F[order]
+    ev = problem.evaluate(X, want_cycles=True) if len(X) else None
+    keys = problem.objective_keys()
+    tb = problem.table
+    kind = study.line.type
+    candidates = []
+    for j in range(len(X)):
+        x = X[j]
+        cid = f"C{j + 1:03d}"
+        st = candidate_stackup(sp, x, name=f"{study.name} {cid}")
+        rep = bend_report(st, study.bend.inner_radius_mm, study.bend.inside, study.bend.motion,
+                          study.bend.plane_strain, False, study.bend.use,
+                          study.limits.min_cycles if study.bend.use == "dynamic" else None)
+        slots = sp.slots(x.reshape(1, -1))
+        sig = int(slots["signal"][0])
+        row = int(ev.line_row[j])
+        geom = LineGeometry(width_m=tb.width_m[row], height_m=tb.height_m[row], thickness_m=tb.thickness_m[row],
+                            er=tb.er[row], gap_m=tb.gap_m[row], height_top_m=tb.height_top_m[row],
+                            er_top=tb.er_top[row], cover_m=tb.cover_m[row], cover_er=tb.cover_er[row],
+                            bottom_ground=True)
+        objectives = {}
+        for k, (o, key) in enumerate(zip(problem.objectives, keys)):
+            objectives[key] = _num(10 ** (-F[j, k])) if o == "life" else _num(F[j, k])
+        line = {
+            "type": kind,
+            "layer": sig + 1,
+            "layer_name": f"L{sig + 1} signal",
+            "copper_weight": sp.cu_opts[int(slots["cu"][0, sig])][0],
+            "width_um": _num(tb.width_m[row] / UM),
+            "gap_um": _num(tb.gap_m[row] / UM),
+            "z0_ohm": _num(tb.z0_ohm[row]),
+            "z_diff_ohm": _num(tb.z_diff_ohm[row]),
+            "target_ohm": study.line.target_ohm,
+            "impedance_error_pct": _num(100 * (tb.z_ohm[row] / study.line.target_ohm - 1)),
+            "eps_eff": _num(tb.eps_eff[row]),
+            "loss_db_per_m": _num(tb.loss_db_per_m[row]),
+            "conductor_loss_db_per_m": _num(tb.conductor_db_per_m[row]),
+            "dielectric_loss_db_per_m": _num(tb.dielectric_db_per_m[row]),
+            "frequency_ghz": study.line.frequency_ghz,
+            "geometry": {
+                "height_um": _num(tb.height_m[row] / UM),
+                "height_top_um": _num(tb.height_top_m[row] / UM),
+                "thickness_um": _num(tb.thickness_m[row] / UM),
+                "er": _num(tb.er[row]),
+                "er_top": _num(tb.er_top[row]),
+                "cover_um": _num(tb.cover_m[row] / UM),
+                "cover_er": _num(tb.cover_er[row]),
+                "bottom_ground": bool(kind == "coplanar"),
+                "er_rule": "series capacitance by thickness (composite_er)",
+            },
+            "method": "; ".join(methods_used(kind, geom)),
+        }
+        findings = list(rep["findings"])
+        for note in method_findings(kind, geom):
+            findings.append(_finding("line-method", "info", note, "lines reference notes (lines.md)"))
+        for note in range_findings(kind, geom):
+            findings.append(_finding("line-range", "warning", note, "stated validity range of the equation"))
+        planes = [p for p in (sig - 1, sig + 1) if 0 <= p < sp.n_cu]
+        if kind not in ("stripline", "coupled-stripline"):
+            planes = [sig + 1] if sig == 0 else [sig - 1]
+        cov = slots["cov_val"][0]
+        hatched = [p for p in planes if cov[p] < 1.0]
+        if hatched:
+            findings.append(_finding(
+                "hatched-reference", "warning",
+                "reference plane " + ", ".join(f"L{p + 1} ({100 * cov[p]:.0f} % copper)" for p in hatched)
+                + " is hatched: the impedance shown is the solid-plane value, a lower bound; hatched-plane "
+                "impedance has no closed form and needs coupon calibration or a 3-D field solution",
+                "lines reference notes section 7 (no published closed form)"))
+        if study.bend.region == "unbonded":
+            findings.append(_finding(
+                "unbonded-model", "info",
+                "unbonded bend region modelled with every gap not bordering the signal layer as an air gap; "
+                "each loose leaf needs its own cover and its own length allowance",
+                "transformed section per leaf (bending reference notes section 1.7)"))
+        layers_out = []
+        for lay in rep["layers"]:
+            layers_out.append(dict(lay))
+        cycles_min = None if ev.cycles is None else _num(ev.cycles[j])
+        bend = {
+            "inner_radius_mm": study.bend.inner_radius_mm,
+            "inside": study.bend.inside,
+            "use": study.bend.use,
+            "motion": study.bend.motion,
+            "neutral_axis_um": rep["neutral_axis_um"],
+            "region": study.bend.region,
+            "cycles_to_failure": cycles_min,
+            "required_cycles": study.limits.min_cycles,
+            "radius_to_thickness": _num(rep["radius_to_thickness"]),
+            "total_thickness_um": _num(rep["total_thickness_um"]),
+            "peak_copper_strain_pct": _num(100 * ev.peak_strain[j]),
+            "signal_copper_strain_pct": _num(100 * ev.signal_strain[j]),
+            "peak_copper_layer": rep.get("peak_copper_layer"),
+            "plane_strain": study.bend.plane_strain,
+            "strain_convention": rep.get("strain_convention"),
+            "min_radius_mm": _num(rep.get("min_radius_mm")),
+        }
+        candidates.append({
+            "id": cid,
+            "objectives": objectives,
+            "line": line,
+            "bend": bend,
+            "layers": layers_out,
+            "choices": sp.describe(x),
+            "findings": findings,
+        })
+    # hypervolume in normalized space
+    search: dict[str, Any] = {
+        "method": result.method,
+        "evaluated": int(result.evaluated),
+        "space_size": int(result.space_size),
+        "feasible": int(arch.feasible),
+        "front_size": len(candidates),
+        "stopped": result.stopped,
+        "seconds": round(result.seconds, 3),
+        "objectives": keys,
+        "constraints": list(problem.constraint_names),
+    }
+    if len(F):
+        ideal, nadir = F.min(axis=0), F.max(axis=0)
+        hv = hypervolume(F, ideal, nadir, HV_REFERENCE)
+        ref = nadir + (HV_REFERENCE - 1.0) * np.where(nadir > ideal, nadir - ideal, 1.0)
+        search["hypervolume"] = _num(hv)
+        search["reference_point"] = {
+            k: (_num(10 ** (-r)) if o == "life" else _num(r)) for k, o, r in zip(keys, problem.objectives, ref)}
+        search["normalization"] = {
+            "ideal": {k: (_num(10 ** (-v)) if o == "life" else _num(v)) for k, o, v in zip(keys, problem.objectives, ideal)},
+            "nadir": {k: (_num(10 ** (-v)) if o == "life" else _num(v)) for k, o, v in zip(keys, problem.objectives, nadir)},
+            "reference": f"{HV_REFERENCE} on every normalized axis (ideal 0, nadir 1); life as -log10(cycles)",
+        }
+    else:
+        search["hypervolume"] = 0.0
+        search["reference_point"] = None
+        search["infeasible"] = explain_infeasible(problem, arch)
+    return {
+        "study": study_raw if study_raw is not None else dict(study.raw),
+        "version": __version__,
+        "seed": seed,
+        "search": search,
+        "candidates": candidates,
+        "caution": CAUTION,
+    }
+
+
+def explain_infeasible(problem: Problem, arch) -> dict[str, Any]:
+    """Which constraints ruled out the nearest candidates, and by how much."""
+    names = problem.constraint_names
+    out: dict[str, Any] = {"violations": {}, "nearest": [], "message": ""}
+    if arch.violated is not None:
+        out["violations"] = {n: int(v) for n, v in zip(names, arch.violated)}
+    if arch.near_G is not None:
+        parts = []
+        for n, g in zip(names, arch.near_G):
+            if g > 0:
+                over = "equation outside its range" if n == "equation_range" else f"{100 * g:.1f} % over the limit"
+                out["nearest"].append({"constraint": n, "text": CONSTRAINT_TEXT.get(n, n), "excess": _num(g)})
+                parts.append(f"{CONSTRAINT_TEXT.get(n, n)} ({over})")
+        out["nearest_choices"] = problem.space.describe(arch.near_X)
+        out["message"] = "no feasible stackup; the nearest candidate misses: " + "; ".join(parts)
+    else:
+        out["message"] = "no candidate was evaluated"
+    return out
+
+
+# ------------------------------------------------------------------------------------------------
+def _flatten(prefix: str, value: Any, out: dict[str, Any]) -> None:
+    if isinstance(value, dict):
+        for k, v in value.items():
+            _flatten(f"{prefix}.{k}" if prefix else str(k), v, out)
+    elif isinstance(value, list):
+        if value and all(isinstance(v, dict) for v in value):
+            for i, v in enumerate(value):
+                _flatten(f"{prefix}.{i + 1}", v, out)
+        else:
+            out[prefix] = ";".join(str(v) for v in value)
+    else:
+        out[prefix] = value
+
+
+def flat_rows(front: dict[str, Any]) -> list[dict[str, Any]]:
+    """One flat dict per candidate (dotted column names; layers numbered top to bottom from 1)."""
+    rows = []
+    for c in front["candidates"]:
+        r: dict[str, Any] = {}
+        c2 = dict(c)
+        c2["findings"] = [f["code"] for f in c.get("findings", [])]
+        _flatten("", c2, r)
+        rows.append(r)
+    return rows
+
+
+def front_dataframe(front: dict[str, Any]):
+    """The front as a pandas DataFrame, one flat row per candidate (same columns as front.csv)."""
+    import pandas as pd
+
+    return pd.DataFrame(flat_rows(front))
+
+
+def front_csv(front: dict[str, Any]) -> str:
+    """``front.csv`` text: one flat row per candidate, header from the union of columns."""
+    rows = flat_rows(front)
+    cols: list[str] = []
+    for r in rows:
+        for k in r:
+            if k not in cols:
+                cols.append(k)
+    buf = io.StringIO()
+    w = csv.DictWriter(buf, fieldnames=cols or ["id"], lineterminator="\n")
+    w.writeheader()
+    for r in rows:
+        w.writerow({k: ("" if r.get(k) is None else r.get(k)) for k in cols})
+    return buf.getvalue()
+
+
+def write_outputs(front: dict[str, Any], out_dir: Path) -> list[Path]:
+    """Write ``front.json`` and ``front.csv`` into ``out_dir`` atomically; return the paths.
+
+    The report and handoff writers extend this function (one place for every output file).
+    """
+    from strainline.optimizer.fileio import write_atomic
+
+    out_dir = Path(out_dir)
+    paths = [
+        write_atomic(out_dir / "front.json", json.dumps(front, indent=1, allow_nan=False) + "\n"),
+        write_atomic(out_dir / "front.csv", front_csv(front)),
+    ]
+    return paths
+
+
+def format_table(front: dict[str, Any], limit: int = 25) -> str:
+    """The short text table ``strainline solve`` prints."""
+    s = front["search"]
+    lines = [f"study {front['study'].get('name', '')}: {s['method']} search, {s['evaluated']:,} evaluated of "
+             f"{s['space_size']:,}, {s['feasible']:,} feasible, {len(front['candidates'])} on the front"
+             + (f", hypervolume {s['hypervolume']:.4f}" if s.get("hypervolume") else "")
+             + f" ({s['seconds']:.1f} s)"]
+    cands = front["candidates"]
+    if not cands:
+        lines.append(s.get("infeasible", {}).get("message", "no feasible stackup"))
+        return "\n".join(lines)
+    okeys = list(cands[0]["objectives"])
+    head = ["id"] + okeys + ["layer", "width_um", "gap_um", "z_ohm", "thick_um", "peak_%", "cycles"]
+    table = [head]
+    for c in cands[:limit]:
+        ln = c["line"]
+        z = ln["z_diff_ohm"] if ln["z_diff_ohm"] is not None else ln["z0_ohm"]
+        cyc = c["bend"]["cycles_to_failure"]
+        row = [c["id"]] + [_fmt(c["objectives"][k]) for k in okeys] + [
+            f"L{ln['layer']}", _fmt(ln["width_um"]), _fmt(ln["gap_um"]), _fmt(z),
+            _fmt(c["bend"]["total_thickness_um"]), _fmt(c["bend"]["peak_copper_strain_pct"]),
+            "-" if cyc is None else f"{cyc:.3g}"]
+        table.append(row)
+    widths = [max(len(r[i]) for r in table) for i in range(len(head))]
+    for r in table:
+        lines.append("  ".join(v.rjust(w) for v, w in zip(r, widths)))
+    if len(cands) > limit:
+        lines.append(f"... {len(cands) - limit} more in front.json / front.csv")
+    return "\n".join(lines)
+
+
+def _fmt(v: Any) -> str:
+    if v is None:
+        return "-"
+    if isinstance(v, float):
+        a = abs(v)
+        if a >= 1e5:
+            return f"{v:.3g}"
+        if a >= 100:
+            return f"{v:.1f}"
+        return f"{v:.3f}" if a < 10 else f"{v:.2f}"
+    return str(v)
+
+
+__all__ = ["build_front", "write_outputs", "front_dataframe", "front_csv", "format_table", "candidate_stackup",
+           "CAUTION", "OBJECTIVE_KEYS", "GPA", "MM"]

@@ -1,0 +1,386 @@
+"""Search drivers: exact exhaustive enumeration, NSGA-II with an archive, and ``auto``.
+
+All drivers work on an *evaluator*: any callable ``evaluate(x) -> (F, G)`` taking integer vectors
+(n, n_var) and returning objectives (n, n_obj, minimized) and constraints (n, n_con, feasible where
+every column is <= 0). The study problem (:class:`strainline.optimizer.problem.Problem`) is one;
+the tests and benchmarks also use small synthetic ones.
+
+* :class:`Archive` -- a streaming non-dominated filter: feed it batches, it keeps exactly the
+  feasible non-dominated points seen so far (one representative per distinct objective vector,
+  the first seen), so memory is bounded by the front, not by the space.
+* :func:`exhaustive` -- enumerates every index of a mixed-radix space in vectorized chunks.
+* :func:`evolutionary` -- pymoo NSGA-II with integer operators (random integer sampling, SBX and
+  polynomial mutation with rounding repair), duplicate elimination, a seeded generator, an external
+  archive of every non-dominated feasible point seen, and a stop on stagnation of the archive's
+  hypervolume as well as on the budget.
+* :func:`search` -- ``auto`` picks exhaustive when the space is at most :data:`AUTO_EXHAUSTIVE_MAX`.
+* :func:`hypervolume` -- exact hypervolume in normalized objective space (pymoo's ``HV``
+  indicator, exact for the dimensions we use).
+"""
+from __future__ import annotations
+
+import time
+from collections.abc import Callable
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+
+#: ``auto`` enumerates spaces up to this size (measured: ~10^6 candidates/s enumerated against
+#: ~1.5x10^4 evaluations/s through pymoo's loop, see benchmarks/bench_search.py).
+AUTO_EXHAUSTIVE_MAX = 10_000_000
+#: Candidates per chunk of the exhaustive enumeration.
+CHUNK = 65536
+
+Evaluator = Callable[[np.ndarray], tuple[np.ndarray, np.ndarray]]
+
+
+# ---------------------------------------------------------------------------------------------
+# non-dominated filtering
+def nondominated_mask(F: np.ndarray) -> np.ndarray:
+    """Mask of the non-dominated rows of ``F`` (minimization), duplicates kept once (first row).
+
+    Exact. Rows are processed in lexicographic order so a row can only be dominated by earlier
+    ones; 2-objective sets use a running-minimum scan, others a blocked pairwise test.
+    """
+    F = np.asarray(F, float)
+    n = F.shape[0]
+    mask = np.zeros(n, bool)
+    if n == 0:
+        return mask
+    # lexicographic order (stable, so equal rows keep their input order); drop repeats
+    order = np.lexsort(F.T[::-1])
+    S = F[order]
+    first_of_run = np.ones(n, bool)
+    first_of_run[1:] = np.any(S[1:] != S[:-1], axis=1)
+    order, S = order[first_of_run], S[first_of_run]
+    if S.shape[1] == 1:
+        keep = np.zeros(len(S), bool)
+        keep[0] = True
+    elif S.shape[1] == 2:
+        # sorted by f1 then f2: a row is non-dominated iff its f2 is below every earlier f2
+        prev_min = np.minimum.accumulate(np.concatenate([[np.inf], S[:-1, 1]]))
+        keep = S[:, 1] < prev_min
+    else:
+        keep = _nd_blocked(S)
+    mask[order[keep]] = True
+    return mask
+
+
+def _nd_blocked(S: np.ndarray) -> np.ndarray:
+    """Non-dominated rows of lexicographically sorted unique rows ``S`` (any number of objectives).
+
+    The first remaining row in lexicographic order is never dominated by a later one, so it is
+    on the front; it then removes every remaining row it dominates. Cost O(|front| * n).
+    """
+    n = S.shape[0]
+    keep = np.zeros(n, bool)
+    alive = np.arange(n)
+    sub = S
+    while len(alive):
+        keep[alive[0]] = True
+        d = np.all(sub >= sub[0], axis=1)     # includes the row itself
+        alive, sub = alive[~d], sub[~d]
+    return keep
+
+
+@dataclass
+class Archive:
+    """Streaming exact non-dominated filter over feasible points.
+
+    ``F`` (m, n_obj) objectives, ``X`` (m, n_var) variables and ``payload`` (an optional integer
+    per point, e.g. the candidate index) of the current front. Infeasible points never enter; the
+    archive tracks the least-violating ones for the "nothing feasible" report.
+    """
+
+    n_obj: int
+    n_var: int
+    F: np.ndarray = field(init=False)
+    X: np.ndarray = field(init=False)
+    seen: int = 0
+    feasible: int = 0
+    near_cv: float = np.inf
+    near_X: np.ndarray | None = None
+    near_G: np.ndarray | None = None
+    violated: np.ndarray | None = None     # per constraint: how many candidates violate it
+
+    def __post_init__(self) -> None:
+        self.F = np.empty((0, self.n_obj))
+        self.X = np.empty((0, self.n_var), np.int64)
+
+    def add(self, X: np.ndarray, F: np.ndarray, G: np.ndarray) -> int:
+        """Merge a batch; return how many archive points changed (0 = no improvement)."""
+        X = np.asarray(X, np.int64)
+        F = np.asarray(F, float)
+        G = np.asarray(G, float)
+        self.seen += len(X)
+        if G.shape[1]:
+            feas = np.all(G <= 0, axis=1) & np.all(np.isfinite(F), axis=1)
+            viol = (G > 0).sum(axis=0)
+            self.violated = viol if self.violated is None else self.violated + viol
+            if not feas.all():
+                cv = np.where(feas[:, None], 0.0, np.maximum(G, 0.0)).sum(axis=1)
+                cv = np.where(feas, np.inf, cv)
+                k = int(np.argmin(cv))
+                if cv[k] < self.near_cv:
+                    self.near_cv, self.near_X, self.near_G = float(cv[k]), X[k].copy(), G[k].copy()
+        else:
+            feas = np.all(np.isfinite(F), axis=1)
+        self.feasible += int(feas.sum())
+        if not feas.any():
+            return 0
+        Fb, Xb = F[feas], X[feas]
+        # quick pre-screen against the current front (most points of a big batch are dominated)
+        if len(self.F):
+            dom = _dominated_by(Fb, self.F)
+            Fb, Xb = Fb[~dom], Xb[~dom]
+            if not len(Fb):
+                return 0
+        Fc = np.concatenate([self.F, Fb])
+        Xc = np.concatenate([self.X, Xb])
+        m = nondominated_mask(Fc)
+        old = len(self.F)
+        changed = int((~m[:old]).sum() + m[old:].sum())
+        self.F, self.X = Fc[m], Xc[m]
+        return changed
+
+
+def _dominated_by(A: np.ndarray, P: np.ndarray) -> np.ndarray:
+    """For each row of A: is it weakly dominated by (<= everywhere) some row of P.
+
+    Front points are tried strongest first (smallest normalized sum) and each test runs only on
+    the rows still undominated, which shrink fast.
+    """
+    dom = np.zeros(len(A), bool)
+    if not len(P) or not len(A):
+        return dom
+    span = np.ptp(P, axis=0)
+    order = np.argsort(((P - P.min(axis=0)) / np.where(span > 0, span, 1.0)).sum(axis=1))
+    alive = np.arange(len(A))
+    sub = A
+    for pi in order:
+        d = np.all(sub >= P[pi], axis=1)
+        if d.any():
+            dom[alive[d]] = True
+            alive, sub = alive[~d], sub[~d]
+            if not len(alive):
+                break
+    return dom
+
+
+# ---------------------------------------------------------------------------------------------
+# hypervolume
+def normalize(F: np.ndarray, ideal: np.ndarray, nadir: np.ndarray) -> np.ndarray:
+    """Objectives scaled so that ``ideal`` -> 0 and ``nadir`` -> 1 (a zero span scales by 1)."""
+    span = np.where(nadir - ideal > 0, nadir - ideal, 1.0)
+    return (np.asarray(F, float) - ideal) / span
+
+
+def hypervolume(F: np.ndarray, ideal: np.ndarray, nadir: np.ndarray, ref: float = 1.1) -> float:
+    """Exact hypervolume of ``F`` in normalized objective space with reference point ``ref`` (all axes).
+
+    Normalization maps ``ideal`` to 0 and ``nadir`` to 1; points beyond the reference point add
+    nothing. Uses pymoo's ``HV`` indicator (exact; Fonseca et al. 2006 for 3-D and above).
+    """
+    if len(F) == 0:
+        return 0.0
+    from pymoo.indicators.hv import HV
+
+    Z = normalize(F, ideal, nadir)
+    Z = Z[np.all(Z < ref, axis=1)]
+    if len(Z) == 0:
+        return 0.0
+    if Z.shape[1] == 1:
+        return float(ref - Z.min())
+    return float(HV(ref_point=np.full(Z.shape[1], ref))(Z))
+
+
+def additive_epsilon(A: np.ndarray, R: np.ndarray, ideal: np.ndarray, nadir: np.ndarray) -> float:
+    """Additive epsilon indicator of approximation ``A`` against reference front ``R`` (normalized).
+
+    The smallest eps such that every point of R is weakly dominated by some point of A shifted by
+    -eps (Zitzler et al. 2003, IEEE TEVC 7(2)). 0 means A covers R.
+    """
+    if len(A) == 0:
+        return float("inf")
+    a, r = normalize(A, ideal, nadir), normalize(R, ideal, nadir)
+    return float(np.max(np.min(np.max(a[None, :, :] - r[:, None, :], axis=2), axis=1)))
+
+
+# ---------------------------------------------------------------------------------------------
+# drivers
+@dataclass
+class SearchResult:
+    """Outcome of a search: the archive front and how it was found."""
+
+    method: str
+    archive: Archive
+    evaluated: int
+    space_size: int
+    seconds: float
+    stopped: str = ""
+    history: list[tuple[int, float]] = field(default_factory=list)   # (evaluations, archive HV)
+
+
+def _digits(index: np.ndarray, sizes: np.ndarray) -> np.ndarray:
+    out = np.empty((index.size, sizes.size), np.int64)
+    idx = index.copy()
+    for k, s in enumerate(sizes):
+        idx, out[:, k] = np.divmod(idx, s)
+    return out
+
+
+def exhaustive(evaluate: Evaluator, sizes: np.ndarray, n_obj: int, chunk: int = CHUNK,
+               progress: Any = None) -> SearchResult:
+    """Evaluate every point of the mixed-radix space ``sizes`` in chunks; exact front.
+
+    Parameters
+    ----------
+    evaluate : callable
+        ``evaluate(x) -> (F, G)`` for integer vectors (n, n_var).
+    sizes : array of int
+        Number of values of each variable (first variable fastest in the index).
+    n_obj : int
+    chunk : int
+        Candidates per vectorized batch (memory is bounded by the chunk and the front).
+    progress : Progress, optional
+        Gets ``update(done, total)``.
+    """
+    sizes = np.asarray(sizes, np.int64)
+    total = int(np.prod([int(s) for s in sizes], dtype=object))
+    if total >= 2**62:
+        raise ValueError("space too large to enumerate")
+    t0 = time.perf_counter()
+    arch = Archive(n_obj, sizes.size)
+    for start in range(0, total, chunk):
+        idx = np.arange(start, min(start + chunk, total), dtype=np.int64)
+        x = _digits(idx, sizes)
+        F, G = evaluate(x)
+        arch.add(x, F, G)
+        if progress is not None:
+            progress.update(min(start + chunk, total), total)
+    return SearchResult("exhaustive", arch, total, total, time.perf_counter() - t0, "complete")
+
+
+def random_search(evaluate: Evaluator, sizes: np.ndarray, n_obj: int, budget: int, seed: int,
+                  chunk: int = 8192) -> SearchResult:
+    """Uniform random sampling of ``budget`` points (the baseline the benchmarks compare against)."""
+    sizes = np.asarray(sizes, np.int64)
+    rng = np.random.default_rng(seed)
+    t0 = time.perf_counter()
+    arch = Archive(n_obj, sizes.size)
+    done = 0
+    while done < budget:
+        m = min(chunk, budget - done)
+        x = rng.integers(0, sizes, size=(m, sizes.size))
+        F, G = evaluate(x)
+        arch.add(x, F, G)
+        done += m
+    return SearchResult("random", arch, done, int(np.prod([int(s) for s in sizes], dtype=object)),
+                        time.perf_counter() - t0, "budget")
+
+
+def evolutionary(evaluate: Evaluator, sizes: np.ndarray, n_obj: int, n_con: int, budget: int, seed: int,
+                 pop_size: int = 100, stagnation: int = 30, progress: Any = None,
+                 hv_bounds: tuple[np.ndarray, np.ndarray] | None = None) -> SearchResult:
+    """NSGA-II (pymoo) on integer variables with an external archive; seeded and reproducible.
+
+    Stops when the budget of evaluations is spent or when the archive has not changed for
+    ``stagnation`` generations in a row.
+
+    Parameters
+    ----------
+    evaluate : callable
+        ``evaluate(x) -> (F, G)``.
+    sizes : array of int
+        Number of values of each variable.
+    n_obj, n_con : int
+    budget : int
+        Maximum number of evaluations.
+    seed : int
+        Seed of the algorithm's random generator.
+    pop_size : int
+    stagnation : int
+        Generations without any archive change before stopping.
+    hv_bounds : (ideal, nadir), optional
+        If given, the archive hypervolume is recorded after every generation (``history``).
+    """
+    from pymoo.algorithms.moo.nsga2 import NSGA2
+    from pymoo.core.problem import Problem as PymooProblem
+    from pymoo.operators.crossover.sbx import SBX
+    from pymoo.operators.mutation.pm import PM
+    from pymoo.operators.repair.rounding import RoundingRepair
+    from pymoo.operators.sampling.rnd import IntegerRandomSampling
+    from pymoo.termination.max_eval import MaximumFunctionCallTermination
+
+    sizes = np.asarray(sizes, np.int64)
+    arch = Archive(n_obj, sizes.size)
+    counter = {"n": 0}
+
+    class _P(PymooProblem):
+        def __init__(self) -> None:
+            super().__init__(n_var=sizes.size, n_obj=n_obj, n_ieq_constr=n_con, xl=np.zeros(sizes.size),
+                             xu=(sizes - 1).astype(float), vtype=int, elementwise=False)
+
+        def _evaluate(self, X, out, *args, **kwargs):
+            x = np.clip(np.rint(X).astype(np.int64), 0, sizes - 1)
+            F, G = evaluate(x)
+            arch.add(x, F, G)
+            counter["n"] += len(x)
+            out["F"] = np.where(np.isfinite(F), F, 1e30)
+            if n_con:
+                out["G"] = np.where(np.isfinite(G), G, 1e30)
+
+    t0 = time.perf_counter()
+    problem = _P()
+    algo = NSGA2(
+        pop_size=pop_size,
+        sampling=IntegerRandomSampling(),
+        crossover=SBX(prob=0.9, eta=3.0, vtype=float, repair=RoundingRepair()),
+        mutation=PM(eta=3.0, vtype=float, repair=RoundingRepair()),
+        eliminate_duplicates=True,
+    )
+    algo.setup(problem, termination=MaximumFunctionCallTermination(budget), seed=seed, verbose=False)
+    quiet_gens = 0
+    history: list[tuple[int, float]] = []
+    stopped = "budget"
+    last_front_size, last_F = -1, None
+    while algo.has_next():
+        algo.next()
+        F = arch.F
+        same = last_F is not None and F.shape == last_F.shape and np.array_equal(F, last_F)
+        quiet_gens = quiet_gens + 1 if same else 0
+        last_F = F.copy()
+        if hv_bounds is not None:
+            history.append((counter["n"], hypervolume(F, *hv_bounds)))
+        if progress is not None:
+            progress.update(min(counter["n"], budget), budget)
+        if quiet_gens >= stagnation and arch.feasible > 0:
+            stopped = f"stagnation ({stagnation} generations without a new front point)"
+            break
+    del last_front_size
+    return SearchResult("evolutionary", arch, counter["n"], int(np.prod([int(s) for s in sizes], dtype=object)),
+                        time.perf_counter() - t0, stopped, history)
+
+
+def choose_method(method: str, space_size: int) -> str:
+    """``auto`` -> ``exhaustive`` up to :data:`AUTO_EXHAUSTIVE_MAX` candidates, else ``evolutionary``."""
+    if method != "auto":
+        return method
+    return "exhaustive" if space_size <= AUTO_EXHAUSTIVE_MAX else "evolutionary"
+
+
+def search(evaluate: Evaluator, sizes: np.ndarray, n_obj: int, n_con: int, method: str = "auto",
+           budget: int = 20000, seed: int = 1, pop_size: int = 100, progress: Any = None) -> SearchResult:
+    """Run the chosen search method (see :func:`choose_method`)."""
+    sizes = np.asarray(sizes, np.int64)
+    size = int(np.prod([int(s) for s in sizes], dtype=object))
+    m = choose_method(method, size)
+    if m == "exhaustive":
+        if size >= 2**62:
+            from strainline.optimizer.errors import StudyError
+
+            raise StudyError(f"the space has {size:.3e} candidates, too many to enumerate; use 'evolutionary'",
+                             "search.method")
+        return exhaustive(evaluate, sizes, n_obj, progress=progress)
+    return evolutionary(evaluate, sizes, n_obj, n_con, budget, seed, pop_size=pop_size, progress=progress)
