@@ -169,7 +169,7 @@ def build_front(problem: Problem, result: SearchResult, catalog: Any, seed: int,
                 "er_top": _num(tb.er_top[row]),
                 "cover_um": _num(tb.cover_m[row] / UM),
                 "cover_er": _num(tb.cover_er[row]),
-                "bottom_ground": bool(kind == "coplanar"),
+                "bottom_ground": True if kind == "coplanar" else None,
                 "er_rule": "series capacitance by thickness (composite_er)",
             },
             "method": "; ".join(methods_used(kind, geom)),
@@ -179,6 +179,14 @@ def build_front(problem: Problem, result: SearchResult, catalog: Any, seed: int,
             findings.append(_finding("line-method", "info", note, "lines reference notes (lines.md)"))
         for note in range_findings(kind, geom):
             findings.append(_finding("line-range", "warning", note, "stated validity range of the equation"))
+        err = tb.z_ohm[row] / study.line.target_ohm - 1
+        if abs(err) > 0.01:
+            findings.append(_finding(
+                "impedance-off-target", "warning",
+                f"the width is held at the end of its allowed range ({tb.width_m[row] / UM:.1f} um), so the nominal "
+                f"impedance is {100 * err:+.1f} % off target, leaving only {100 * (study.line.tolerance - abs(err)):.1f} % "
+                f"of the {study.line.tolerance_label} tolerance for process variation",
+                "study tolerance and the fabricator's minimum trace width"))
         planes = [p for p in (sig - 1, sig + 1) if 0 <= p < sp.n_cu]
         if kind not in ("stripline", "coupled-stripline"):
             planes = [sig + 1] if sig == 0 else [sig - 1]
@@ -274,7 +282,8 @@ def explain_infeasible(problem: Problem, arch) -> dict[str, Any]:
         out["violations"] = {n: int(v) for n, v in zip(names, arch.violated)}
     if arch.near_G is not None:
         parts = []
-        for n, g in zip(names, arch.near_G):
+        near_G = problem.evaluate(arch.near_X.reshape(1, -1)).G[0]   # full evaluation (no pruning)
+        for n, g in zip(names, near_G):
             if g > 0:
                 over = "equation outside its range" if n == "equation_range" else f"{100 * g:.1f} % over the limit"
                 out["nearest"].append({"constraint": n, "text": CONSTRAINT_TEXT.get(n, n), "excess": _num(g)})

@@ -176,11 +176,13 @@ def build_line_table(space: Space, catalog) -> LineTable:
     dims: dict[int, list[tuple[str, int, int]]] = {}
     offset: dict[int, int] = {}
     total = 0
+    mirror_middle = study.stack.symmetric and N % 2 == 1
     for s in space.sig_opts:
         d = [("cu", s, len(space.cu_opts))]
-        for g in ([s - 1] if s > 0 else []) + ([s] if s < N - 1 else []):
-            if kind in OUTER_KINDS and N > 1 and ((s == 0 and g != 0) or (s == N - 1 and g != N - 2)):
-                continue
+        gaps = ([s - 1] if s > 0 else []) + ([s] if s < N - 1 else [])
+        if mirror_middle and s == (N - 1) // 2 and len(gaps) == 2:
+            gaps = [s]          # symmetric stack: the gap above the middle copper mirrors the one below
+        for g in gaps:
             d += [("film", g, n_film), ("adh", g, n_adh), ("dbl", g, 2)]
         if kind in OUTER_KINDS:
             d.append(("cover", 0 if s == 0 else 1, n_cov))
@@ -204,12 +206,14 @@ def build_line_table(space: Space, catalog) -> LineTable:
         cols["cu"].append(dig[("cu", s)])
         cols["fb"].append(dig.get(("film", below), z)); cols["ab"].append(dig.get(("adh", below), z))
         cols["db"].append(dig.get(("dbl", below), z))
-        cols["fa"].append(dig.get(("film", above), z)); cols["aa"].append(dig.get(("adh", above), z))
-        cols["da"].append(dig.get(("dbl", above), z))
+        mirrored = mirror_middle and s == (N - 1) // 2 and s > 0 and ("film", above) not in dig
+        src = below if mirrored else above
+        cols["fa"].append(dig.get(("film", src), z)); cols["aa"].append(dig.get(("adh", src), z))
+        cols["da"].append(dig.get(("dbl", src), z))
         cols["cover"].append(dig.get(("cover", 0), dig.get(("cover", 1), z)))
         cols["gap"].append(dig[("gap", 0)])
         has_below = ("film", below) in dig
-        has_above = ("film", above) in dig
+        has_above = ("film", above) in dig or mirrored
         cols.setdefault("hb", []).append(np.full(size, has_below))
         cols.setdefault("ha", []).append(np.full(size, has_above))
     c = {k: np.concatenate(v) for k, v in cols.items()}
@@ -322,10 +326,60 @@ class Problem:
         return bend_strains(thickness_m, modulus_pa, b.inner_radius_mm * MM,
                             inside_bottom=(b.inside == "bottom"), leaf=leaf)
 
-    def evaluate(self, x: np.ndarray, want_cycles: bool = False) -> Evaluation:
-        """Evaluate a batch of integer vectors (n, n_var); one vectorized pass."""
-        sp, study = self.space, self.space.study
+    def line_ok(self, row: np.ndarray) -> np.ndarray:
+        """True where a table row meets every line constraint (impedance, width, gap, validity)."""
+        tb, study = self.table, self.space.study
+        ok = (tb.rel_err[row] <= study.line.tolerance) & (tb.width_lo_m[row] <= tb.width_hi_m[row]) & tb.in_range[row]
+        if study.line.type in GAP_KINDS:
+            ok &= tb.gap_m[row] >= tb.min_space_m[row]
+        return ok
+
+    def evaluate(self, x: np.ndarray, want_cycles: bool = False, prune: bool = False) -> Evaluation:
+        """Evaluate a batch of integer vectors (n, n_var); one vectorized pass.
+
+        With ``prune`` the bend model runs only for candidates whose line meets every line
+        constraint (the cheap ones, from the table); the others keep their line constraint values
+        and get 0 in the mechanical constraint columns and nan objectives (they are infeasible
+        either way, so the exact front is unchanged).
+        """
         x = np.asarray(x, np.int64)
+        if prune:
+            slots = self.space.slots(x)
+            ok = self.line_ok(self.table.index(slots))
+            if not ok.all():
+                full = self.evaluate(x[ok], want_cycles) if ok.any() else None
+                n = x.shape[0]
+                F = np.full((n, self.n_obj), np.nan)
+                G = np.zeros((n, self.n_con))
+                row = self.table.index(slots)
+                lim = self._line_constraints(row)
+                for k, c in enumerate(self.constraint_names):
+                    if c in lim:
+                        G[:, k] = lim[c]
+                pk = np.full(n, np.nan)
+                out = Evaluation(F, G, pk, pk.copy(), pk.copy(), row, None if not want_cycles else pk.copy())
+                if full is not None:
+                    out.F[ok], out.G[ok] = full.F, full.G
+                    out.peak_strain[ok], out.signal_strain[ok] = full.peak_strain, full.signal_strain
+                    out.total_thickness_m[ok] = full.total_thickness_m
+                    if want_cycles:
+                        out.cycles[ok] = full.cycles
+                return out
+        return self._evaluate(x, want_cycles)
+
+    def _line_constraints(self, row: np.ndarray) -> dict[str, np.ndarray]:
+        tb, study = self.table, self.space.study
+        out = {
+            "impedance": tb.rel_err[row] / study.line.tolerance - 1.0,
+            "width_range": (tb.width_lo_m[row] - tb.width_hi_m[row]) / tb.width_hi_m[row],
+            "equation_range": np.where(tb.in_range[row], -1.0, 1.0),
+        }
+        if study.line.type in GAP_KINDS:
+            out["gap_space"] = (tb.min_space_m[row] - tb.gap_m[row]) / tb.min_space_m[row]
+        return out
+
+    def _evaluate(self, x: np.ndarray, want_cycles: bool = False) -> Evaluation:
+        sp, study = self.space, self.space.study
         n = x.shape[0]
         t, e, leaf, slots = sp.mechanics(x)
         bs = self.strains(t, e, leaf)
@@ -360,15 +414,10 @@ class Problem:
                 F[:, k] = -np.log10(np.maximum(cycles, 1e-300))
         lim = study.limits
         G = np.empty((n, self.n_con))
+        line_g = self._line_constraints(row)
         for k, c in enumerate(self.constraint_names):
-            if c == "impedance":
-                G[:, k] = tb.rel_err[row] / study.line.tolerance - 1.0
-            elif c == "width_range":
-                G[:, k] = (tb.width_lo_m[row] - tb.width_hi_m[row]) / tb.width_hi_m[row]
-            elif c == "gap_space":
-                G[:, k] = (tb.min_space_m[row] - tb.gap_m[row]) / tb.min_space_m[row]
-            elif c == "equation_range":
-                G[:, k] = np.where(tb.in_range[row], -1.0, 1.0)
+            if c in line_g:
+                G[:, k] = line_g[c]
             elif c == "total_thickness":
                 G[:, k] = total / (lim.total_thickness_um * UM) - 1.0
             elif c == "peak_strain":

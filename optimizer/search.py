@@ -371,8 +371,14 @@ def choose_method(method: str, space_size: int) -> str:
 
 
 def search(evaluate: Evaluator, sizes: np.ndarray, n_obj: int, n_con: int, method: str = "auto",
-           budget: int = 20000, seed: int = 1, pop_size: int = 100, progress: Any = None) -> SearchResult:
-    """Run the chosen search method (see :func:`choose_method`)."""
+           budget: int = 20000, seed: int = 1, pop_size: int = 100, progress: Any = None,
+           evaluate_exhaustive: Evaluator | None = None) -> SearchResult:
+    """Run the chosen search method (see :func:`choose_method`).
+
+    ``evaluate_exhaustive`` (optional) is used by the enumeration instead of ``evaluate``; it may
+    skip expensive work for candidates a cheap constraint already rules out, as long as it never
+    reports such a candidate feasible.
+    """
     sizes = np.asarray(sizes, np.int64)
     size = int(np.prod([int(s) for s in sizes], dtype=object))
     m = choose_method(method, size)
@@ -382,5 +388,5 @@ def search(evaluate: Evaluator, sizes: np.ndarray, n_obj: int, n_con: int, metho
 
             raise StudyError(f"the space has {size:.3e} candidates, too many to enumerate; use 'evolutionary'",
                              "search.method")
-        return exhaustive(evaluate, sizes, n_obj, progress=progress)
+        return exhaustive(evaluate_exhaustive or evaluate, sizes, n_obj, progress=progress)
     return evolutionary(evaluate, sizes, n_obj, n_con, budget, seed, pop_size=pop_size, progress=progress)

@@ -85,7 +85,12 @@ def solve(study_path: str | Path, out: str | Path | None = None, method: str | N
         e = problem.evaluate(x)
         return e.F, e.G
 
-    result = search(evaluate, sp.sizes, problem.n_obj, problem.n_con, m, b, s, study.search.population, progress)
+    def evaluate_pruned(x):
+        e = problem.evaluate(x, prune=True)
+        return e.F, e.G
+
+    result = search(evaluate, sp.sizes, problem.n_obj, problem.n_con, m, b, s, study.search.population, progress,
+                    evaluate_exhaustive=evaluate_pruned)
     progress.close()
     front = build_front(problem, result, catalog, s)
     front["search"]["seconds"] = round(time.perf_counter() - t0, 3)
