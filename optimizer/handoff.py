@@ -219,6 +219,8 @@ def build_sheet(cand: Mapping[str, Any], front: Mapping[str, Any], catalog: Any 
         kind = lay.get("kind")
         if kind == "copper":
             role = "signal" if j == sig else ("reference plane" if j in refs else str(lay.get("role") or "copper"))
+        elif kind == "air-gap":
+            role = "air gap (unbonded bend region)"
         else:
             role = str(kind)
         mat = str(lay.get("material") or "")
@@ -271,7 +273,10 @@ def build_sheet(cand: Mapping[str, Any], front: Mapping[str, Any], catalog: Any 
     # controlled impedance
     if line:
         pair = "coupled" in str(line.get("type", ""))
-        sheet.add("impedance", "line", "signal layer", line.get("layer"), "", "line.layer")
+        if line.get("layer_name"):
+            sheet.add("impedance", "line", "signal layer", line["layer_name"], "", "line.layer_name")
+        else:
+            sheet.add("impedance", "line", "signal layer", line.get("layer"), "", "line.layer")
         sheet.add("impedance", "line", "line type", line.get("type"), "", "line.type")
         sheet.add("impedance", "line", "trace width as designed", line.get("width_um"), "um", "line.width_um")
         if line.get("gap_um") is not None:
@@ -304,7 +309,7 @@ def build_sheet(cand: Mapping[str, Any], front: Mapping[str, Any], catalog: Any 
             if geom.get(gk) is not None:
                 sheet.add("impedance", "geometry", lab, geom[gk], unit, f"line.geometry.{gk}")
         sheet.add("impedance", "geometry", "equation used", geom.get("method") or line.get("method"), "",
-                  "line.geometry.method" if geom.get("method") else "")
+                  "line.geometry.method" if geom.get("method") else "line.method" if line.get("method") else "")
         fc = line.get("field_check")
         if isinstance(fc, Mapping):
             fl = {"z0_ohm": ("field-solver impedance", "ohm"), "z_diff_ohm": ("field-solver differential impedance", "ohm"),
@@ -328,8 +333,8 @@ def build_sheet(cand: Mapping[str, Any], front: Mapping[str, Any], catalog: Any 
         use, ukey = _study_get(front, "bend", "use"), ""
     sheet.add("bend", "bend", "use (state the IPC-6013 flex use on the drawing)",
               use, "", ukey, _USE_TEXT.get(str(use), ""))
-    cyc = bend.get("cycles_required")
-    ckey = "bend.cycles_required"
+    ckey = next((f"bend.{k}" for k in ("required_cycles", "cycles_required") if bend.get(k) is not None), "")
+    cyc = bend.get(ckey[5:]) if ckey else None
     if cyc is None:
         cyc, ckey = _study_get(front, "bend", "cycles"), ""
     if cyc is not None:
@@ -339,8 +344,12 @@ def build_sheet(cand: Mapping[str, Any], front: Mapping[str, Any], catalog: Any 
         sheet.add("bend", "bend", "motion", motion, "", "bend.motion" if bend.get("motion") else "")
     sheet.add("bend", "bend", "bend region", bend.get("region"), "", "bend.region",
               "bonded: one laminated stack; unbonded: separate leaves (air gap)")
-    sheet.add("bend", "bend", "neutral axis above the bottom face", bend.get("neutral_axis_um"), "um",
-              "bend.neutral_axis_um")
+    na = bend.get("neutral_axis_um")
+    if isinstance(na, list):          # unbonded: one neutral axis per leaf, top to bottom
+        sheet.add("bend", "bend", "neutral axis of each leaf above the bottom face",
+                  "; ".join(fmt(v, 5) for v in na), "um", "", "one per bonded leaf, top to bottom")
+    else:
+        sheet.add("bend", "bend", "neutral axis above the bottom face", na, "um", "bend.neutral_axis_um")
     sheet.add("bend", "bend", "inner radius / total thickness", bend.get("radius_to_thickness"), "",
               "bend.radius_to_thickness")
     sheet.add("bend", "bend", "peak copper strain (estimate)", obj["peak_strain_pct"], "%", "objectives.peak_strain_pct",

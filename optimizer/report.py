@@ -41,6 +41,7 @@ STRAIN_CONVENTION = (
     "at y_na: strain = (y - y_na) / (R + y_na)."
 )
 
+_NUM_UNIT = re.compile(r"^\s*(-?\d+(?:\.\d*)?(?:[eE][-+]?\d+)?)\s*([A-Za-z%/]*)\s*$")
 _ID_RE = re.compile(r"^[A-Za-z0-9][A-Za-z0-9._-]{0,79}$")
 
 #: Material families and the colours this report gives them (our own palette).
@@ -173,7 +174,13 @@ def family_of(layer: Mapping[str, Any], catalog: Any | None = None) -> str:
 
 
 def layer_heights(layers: Sequence[Mapping[str, Any]]) -> list[tuple[float, float]]:
-    """(bottom_um, top_um) of each layer (top to bottom), heights from the bottom face of the stack."""
+    """(bottom_um, top_um) of each layer (top to bottom), heights from the bottom face of the stack.
+
+    Uses the layers' own ``y_bottom_um``/``y_top_um`` when every layer gives them, else stacks the
+    thicknesses from the bottom face.
+    """
+    if layers and all(_num(lay.get("y_bottom_um")) and _num(lay.get("y_top_um")) for lay in layers):
+        return [(float(lay["y_bottom_um"]), float(lay["y_top_um"])) for lay in layers]
     t = [float(lay.get("thickness_um") or 0.0) for lay in layers]
     out: list[tuple[float, float]] = []
     top = sum(t)
@@ -248,7 +255,7 @@ def decision_table(cands: Sequence[Mapping[str, Any]]) -> list[dict[str, Any]]:
     if not cands:
         return []
     dims: list[dict[str, Any]] = []
-    given = [c.get("variables") or c.get("decision") for c in cands]
+    given = [c.get("variables") or c.get("decision") or c.get("choices") for c in cands]
     if all(isinstance(g, Mapping) and g for g in given):
         keys = [k for k in given[0] if all(k in g for g in given)]
         for k in keys:
@@ -268,6 +275,13 @@ def decision_table(cands: Sequence[Mapping[str, Any]]) -> list[dict[str, Any]]:
     out: list[dict[str, Any]] = []
     for d in dims:
         vals = d["values"]
+        parsed = [_NUM_UNIT.match(v) if isinstance(v, str) else None for v in vals]
+        units = {m.group(2) for m in parsed if m}
+        if vals and all(parsed) and len(units) == 1:      # "25um", "12.5um": numbers with one unit
+            unit = units.pop()
+            vals = d["values"] = [float(m.group(1)) for m in parsed]
+            if unit:
+                d["label"] = f"{d['label']} ({unit})"
         if all(v is None for v in vals):
             continue
         numeric = all(_num(v) or v is None for v in vals)
@@ -334,6 +348,22 @@ def findings_of(cand: Mapping[str, Any]) -> list[dict[str, str]]:
     return out
 
 
+def _fill_family(layer: Mapping[str, Any], catalog: Any | None) -> str | None:
+    """Family of the material filling a partly covered copper layer, when the front names it."""
+    fill = layer.get("fill") or layer.get("fill_material")
+    if layer.get("kind") != "copper" or not isinstance(fill, str):
+        return None
+    return family_of({"kind": "dielectric", "material": fill}, catalog)
+
+
+def _infeasible_message(front: Mapping[str, Any]) -> str:
+    search = front.get("search") if isinstance(front.get("search"), Mapping) else {}
+    inf = search.get("infeasible")
+    if isinstance(inf, Mapping):
+        return str(inf.get("message") or "")
+    return str(inf or "")
+
+
 def _page_data(front: Mapping[str, Any], catalog: Any | None) -> dict[str, Any]:
     cands = front["candidates"]
     view = []
@@ -345,7 +375,8 @@ def _page_data(front: Mapping[str, Any], catalog: Any | None) -> dict[str, Any]:
             "objectives": c["objectives"],
             "line": c.get("line") or {},
             "bend": c.get("bend") or {},
-            "layers": [dict(lay, bottom_um=b, top_um=t, family=family_of(lay, catalog))
+            "layers": [dict(lay, bottom_um=b, top_um=t, family=family_of(lay, catalog),
+                            fill_family=_fill_family(lay, catalog))
                        for lay, (b, t) in zip(layers, hts)],
             "signal": signal_index(c),
             "refs": reference_indices(c),
@@ -366,6 +397,7 @@ def _page_data(front: Mapping[str, Any], catalog: Any | None) -> dict[str, Any]:
         "dominated": dom,
         "decisions": decision_table(cands),
         "strain_limit_pct": strain_limit_pct(front),
+        "infeasible": _infeasible_message(front),
         "colours": FAMILY_COLOURS,
     }
 
@@ -799,7 +831,7 @@ function drawStrain(c) {
   var L = c.layers, total = L.length ? L[0].top_um : 0;
   var traces = [], shapes = [], anns = [];
   L.forEach(function (l, i) {
-    if (l.thickness_um <= 0 || l.kind === 'air-gap') return;
+    if (l.thickness_um <= 0 || l.kind === 'air-gap' || typeof l.strain_top_pct !== 'number') return;
     var isCu = l.kind === 'copper';
     traces.push({type: 'scatter', mode: isCu ? 'lines+markers' : 'lines', x: [l.strain_bottom_pct, l.strain_top_pct],
       y: [l.bottom_um, l.top_um], line: {color: isCu ? (i === c.signal ? '#d1343b' : D.colours.copper) : '#8896a5',
@@ -849,7 +881,7 @@ function drawLayerTable(c) {
   document.getElementById('cand-findings').innerHTML = f ? '<h2>Findings</h2>' + f : '';
   var l = c.line, bd = c.bend, o = c.objectives;
   var parts = [];
-  parts.push('line: ' + esc(l.type || '-') + ' on ' + esc(l.layer === undefined ? '-' : l.layer) + ', width ' + fmt(l.width_um) + ' um' +
+  parts.push('line: ' + esc(l.type || '-') + ' on ' + esc(l.layer_name || (l.layer === undefined ? '-' : 'copper layer ' + l.layer)) + ', width ' + fmt(l.width_um) + ' um' +
     (l.gap_um !== null && l.gap_um !== undefined ? ', gap ' + fmt(l.gap_um) + ' um' : ''));
   if (l.z_diff_ohm) parts.push('Zdiff ' + fmt(l.z_diff_ohm) + ' ohm'); else if (l.z0_ohm) parts.push('Z0 ' + fmt(l.z0_ohm) + ' ohm');
   parts.push('bend: inner radius ' + fmt(bd.inner_radius_mm) + ' mm, ' + esc(bd.inside || '-') + ' face inside, ' +
@@ -885,7 +917,7 @@ function drawParcoords() {
 var tcols = [{k: 'id', t: 'candidate', get: function (c) { return c.id; }, s: true}];
 D.objectives.forEach(function (k) { tcols.push({k: k, t: label(k), get: function (c) { return c.objectives[k]; }}); });
 function col(k, t, get) { if (C.some(function (c) { var v = get(c); return v !== null && v !== undefined; })) tcols.push({k: k, t: t, get: get}); }
-col('layer', 'signal layer', function (c) { return c.line.layer; });
+col('layer', 'signal layer', function (c) { return c.line.layer_name || c.line.layer; });
 col('width_um', 'width (um)', function (c) { return c.line.width_um; });
 col('gap_um', 'gap (um)', function (c) { return c.line.gap_um; });
 col('z0_ohm', 'Z0 (ohm)', function (c) { return c.line.z0_ohm; });
@@ -951,7 +983,10 @@ if (C.length) {
   select(best);
 } else {
   drawFront();
-  document.getElementById('cand-title').textContent = 'No feasible candidate in this run';
+  document.getElementById('cand-title').textContent = 'No feasible candidate in this run' +
+    (D.infeasible ? ': ' + D.infeasible : '');
+  document.querySelector('#candidate-card .row').style.display = 'none';
+  document.getElementById('parcoords').parentNode.style.display = 'none';
 }
 document.getElementById('front').on('plotly_click', function (ev) {
   var p = ev.points.filter(function (p) { return p.data.name === 'candidates'; })[0];
