@@ -424,3 +424,20 @@ def test_property_symmetric_stack_antisymmetric_under_flip(half, r_mm):
     c = b.bend_strains(t, e, r_mm * 1e-3, False)
     np.testing.assert_allclose(a.strain_top, -c.strain_top, rtol=1e-9, atol=1e-15)
     np.testing.assert_allclose(a.strain_bottom, -c.strain_bottom, rtol=1e-9, atol=1e-15)
+
+
+def test_epp_leaf_equals_separate_leaf():
+    # an unbonded leaf solved with the others gives the same EPP axis as that leaf alone on its radius
+    t, e, ey, cap = _epp_inputs([12.5, 18, 25, 0, 25, 35, 12.5], [5.0, 118, 1.0, 0, 5.0, 118, 2.8],
+                                [False, True, False, False, False, True, False], 110e6 / 118e9)
+    leaf = np.array([[0, 0, 0, 3, 4, 4, 4]])
+    r = 1.2e-3
+    for ib in (True, False):
+        both = b.epp_bend_strains(t, e, ey, cap, r, ib, leaf)
+        low_r = r if ib else r + 55.5e-6
+        up_r = r + 72.5e-6 if ib else r
+        up = b.epp_bend_strains(t[:, :3], e[:, :3], ey[:, :3], cap[:, :3], up_r, ib)
+        low = b.epp_bend_strains(t[:, 4:], e[:, 4:], ey[:, 4:], cap[:, 4:], low_r, ib)
+        np.testing.assert_allclose(both.strain_top[:, :3], up.strain_top, rtol=1e-9)
+        np.testing.assert_allclose(both.strain_bottom[:, 4:], low.strain_bottom, rtol=1e-9)
+        np.testing.assert_allclose(both.y_na_m[0, 4], low.y_na_m[0, 0], rtol=1e-9)
