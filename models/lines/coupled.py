@@ -18,7 +18,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from strainline.models.lines.geometry import k_ratio, log_cosh, log_sinh
+from strainline.models.lines.geometry import k_ratio_log, log_cosh, log_sinh
 from strainline.models.lines.microstrip import cover_blend, hj_eps, hj_width_corrections, hj_z01
 from strainline.models.lines.stripline import _combine, stripline_centred_air
 from strainline.models.units import C0, ETA0
@@ -182,14 +182,16 @@ def cohn55_air(width_m, gap_m, spacing_m) -> tuple[np.ndarray, np.ndarray]:
     b = np.asarray(spacing_m, dtype=float)
     a = np.pi * np.asarray(width_m, dtype=float) / (2.0 * b)
     c = np.pi * (np.asarray(width_m, dtype=float) + np.asarray(gap_m, dtype=float)) / (2.0 * b)
-    ke = np.tanh(a) * np.tanh(c)
-    ko = np.tanh(a) / np.tanh(c)
-    # 1 - ke^2 = cosh(c-a) cosh(c+a) / (cosh^2 a cosh^2 c)
-    me1 = np.exp(log_cosh(c - a) + log_cosh(c + a) - 2.0 * log_cosh(a) - 2.0 * log_cosh(c))
-    # 1 - ko^2 = sinh(c-a) sinh(c+a) / (cosh^2 a sinh^2 c)
-    mo1 = np.exp(log_sinh(c - a) + log_sinh(c + a) - 2.0 * log_cosh(a) - 2.0 * log_sinh(c))
-    ze = ETA0 / 4.0 / k_ratio(ke ** 2, me1)
-    zo = ETA0 / 4.0 / k_ratio(ko ** 2, mo1)
+    ln_ta = np.log(np.tanh(a))
+    ln_tc = np.log(np.tanh(c))
+    # ke = tanh a tanh c; 1 - ke^2 = cosh(c-a) cosh(c+a) / (cosh^2 a cosh^2 c)
+    ln_me = 2.0 * (ln_ta + ln_tc)
+    ln_me1 = log_cosh(c - a) + log_cosh(c + a) - 2.0 * log_cosh(a) - 2.0 * log_cosh(c)
+    # ko = tanh a / tanh c; 1 - ko^2 = sinh(c-a) sinh(c+a) / (cosh^2 a sinh^2 c)
+    ln_mo = 2.0 * (ln_ta - ln_tc)
+    ln_mo1 = log_sinh(c - a) + log_sinh(c + a) - 2.0 * log_cosh(a) - 2.0 * log_sinh(c)
+    ze = ETA0 / 4.0 / k_ratio_log(ln_me, ln_me1)
+    zo = ETA0 / 4.0 / k_ratio_log(ln_mo, ln_mo1)
     return ze, zo
 
 

@@ -195,6 +195,19 @@ def k_ratio(m: np.ndarray, m1: np.ndarray) -> np.ndarray:
     return ellipkm1(m1) / ellipkm1(m)
 
 
+def _k_of_log(ln_p: np.ndarray) -> np.ndarray:
+    """K at parameter 1 - p, from ln p: ``ellipkm1(p)``, or its asymptote ln 4 - ln(p)/2 when
+    p < 1e-16 (error below 1e-16 relative there; avoids underflow of p to 0)."""
+    ln_p = np.asarray(ln_p, dtype=float)
+    tiny = ln_p < -36.8
+    return np.where(tiny, np.log(4.0) - 0.5 * ln_p, ellipkm1(np.exp(np.where(tiny, 0.0, ln_p))))
+
+
+def k_ratio_log(ln_m: np.ndarray, ln_m1: np.ndarray) -> np.ndarray:
+    """K(k)/K(k') from ln(k**2) and ln(1 - k**2): full precision even when either underflows."""
+    return _k_of_log(ln_m1) / _k_of_log(ln_m)
+
+
 def log_cosh(x: np.ndarray) -> np.ndarray:
     """ln(cosh x) without overflow."""
     ax = np.abs(x)

@@ -14,7 +14,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from strainline.models.lines.geometry import k_ratio
+from strainline.models.lines.geometry import k_ratio_log, log_cosh
 from strainline.models.units import C0, ETA0
 
 
@@ -35,9 +35,9 @@ def cohn_stripline_air(width_m, spacing_m) -> np.ndarray:
         Plane-to-plane spacing b, m.
     """
     x = np.pi * np.asarray(width_m, dtype=float) / (2.0 * np.asarray(spacing_m, dtype=float))
-    k2 = 1.0 / np.cosh(np.minimum(x, 300.0)) ** 2      # k**2 = sech**2
-    kp2 = np.tanh(x) ** 2                                # k'**2
-    return ETA0 / 4.0 * k_ratio(k2, kp2)
+    ln_k2 = -2.0 * log_cosh(x)                      # k**2 = sech**2
+    ln_kp2 = 2.0 * np.log(np.tanh(x))               # k'**2 = tanh**2
+    return ETA0 / 4.0 * k_ratio_log(ln_k2, ln_kp2)
 
 
 def wheeler_stripline_air(width_m, spacing_m, thickness_m) -> np.ndarray:

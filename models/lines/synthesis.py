@@ -98,11 +98,12 @@ def _microstrip_start(target, g: LineGeometry, kern: MicrostripKernel) -> tuple[
 
 def _secant(fun: Callable[[np.ndarray, np.ndarray], np.ndarray], lo: np.ndarray, hi: np.ndarray,
             x0: np.ndarray, slope0: np.ndarray, sign: float, active: np.ndarray,
-            max_iter: int = 60) -> tuple[np.ndarray, np.ndarray]:
+            ends_known: bool = False, max_iter: int = 80) -> tuple[np.ndarray, np.ndarray]:
     """Safeguarded secant on rows ``active`` (bool): returns (x, ok).
 
-    ``fun(rows, x)`` gives f for the integer index ``rows``; ``sign`` is +1 when f increases
-    with x and -1 when it decreases. ``slope0`` is df/dx for the first step.
+    ``fun(rows, x)`` gives f for the integer index ``rows`` (None = all rows); ``sign`` is +1
+    when f increases with x and -1 when it decreases. ``slope0`` is df/dx for the first step;
+    ``ends_known`` says f was already evaluated at both range ends (no need to try them).
     """
     m = lo.size
     lo0, hi0 = lo.copy(), hi.copy()
@@ -112,6 +113,8 @@ def _secant(fun: Callable[[np.ndarray, np.ndarray], np.ndarray], lo: np.ndarray,
     fp = np.full(m, np.nan)
     fx = np.full(m, np.nan)
     done = np.zeros(m, dtype=bool)
+    tried_lo = np.full(m, ends_known)
+    tried_hi = np.full(m, ends_known)
     rows = np.flatnonzero(active & np.isfinite(lo) & np.isfinite(hi) & (lo <= hi))
     for _ in range(max_iter):
         if rows.size == 0:
@@ -134,15 +137,21 @@ def _secant(fun: Callable[[np.ndarray, np.ndarray], np.ndarray], lo: np.ndarray,
         stop = conv | tiny | out | ~np.isfinite(fr)
         xpr = xp[idx]
         dfx = fr - fp[idx]
-        use_sec = np.isfinite(xpr) & (dfx != 0.0)
+        first = ~np.isfinite(xpr)
+        use_sec = ~first & (dfx != 0.0)
         dxdf = np.where(use_sec, (xr - xpr) / np.where(use_sec, dfx, 1.0), 1.0 / slope0[idx])
         xn = xr - fr * dxdf
-        below = ~(xn > lor)
-        above = ~(xn < hir)
-        # leaving the bracket: try the untouched range end once, else bisect
-        xn = np.where(below & (lor <= l0) & (xr > l0), l0,
-                      np.where(above & (hir >= h0) & (xr < h0), h0,
-                               np.where(below | above, 0.5 * (lor + hir), xn)))
+        t_lo = tried_lo[idx] | (xr <= l0)
+        t_hi = tried_hi[idx] | (xr >= h0)
+        tried_lo[idx] = t_lo
+        tried_hi[idx] = t_hi
+        # safeguards: leaving the bracket -> the untried range end once, else bisect; a flat f or a
+        # step that did not halve (secant stagnating on one side) -> bisect
+        go_lo = ~(xn > lor) & ~t_lo
+        go_hi = ~(xn < hir) & ~t_hi
+        slow = ~first & ~(np.abs(xn - xr) <= 0.5 * np.abs(xr - xpr))
+        bisect = (~(xn > lor) | ~(xn < hir) | (~first & ~use_sec) | slow) & ~go_lo & ~go_hi
+        xn = np.where(go_lo, l0, np.where(go_hi, h0, np.where(bisect, 0.5 * (lor + hir), xn)))
         done[idx] = stop & (conv | tiny) & np.isfinite(fr)
         xp[idx] = xr
         fp[idx] = fr
@@ -209,7 +218,7 @@ def _solve(kind: str, variable: str, target_ohm, geom: LineGeometry, vmin, vmax,
                 slope = (f_hi - f_lo) / np.where(hi > lo, hi - lo, 1.0)
                 x0 = np.where(f_hi != f_lo, lo - f_lo / np.where(slope != 0, slope, 1.0), lo)
                 slope = np.where(np.isfinite(slope) & (slope != 0), slope, sign)
-                x, okc = _secant(fun, lo, hi, x0, slope, sign, bracket)
+                x, okc = _secant(fun, lo, hi, x0, slope, sign, bracket, ends_known=True)
             value[sl] = np.where(okc, np.exp(x), np.nan)
             ok[sl] = okc
     return value, ok
