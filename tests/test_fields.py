@@ -18,23 +18,7 @@ from strainline.models.fields import field_solve, field_solve_width, richardson
 from strainline.models.fields.grid import Box, Problem, bisect, graded_points, solve
 from strainline.models.units import C0, EPS0, ETA0
 
-try:  # the closed forms' geometry record (lines engineer); a stand-in with the same fields before
-    from strainline.models.lines.geometry import LineGeometry
-except ImportError:  # pragma: no cover
-    from dataclasses import dataclass
-
-    @dataclass(frozen=True)
-    class LineGeometry:  # type: ignore[no-redef]
-        width_m: float
-        height_m: float
-        thickness_m: float
-        er: float
-        gap_m: float = math.nan
-        height_top_m: float = math.nan
-        er_top: float = math.nan
-        cover_m: float = 0.0
-        cover_er: float = 1.0
-        bottom_ground: bool = True
+from strainline.models.lines import LineGeometry
 
 UM = 1e-6
 
@@ -243,11 +227,11 @@ def test_pair_thickness_and_cover_as_published():
     # 105.0 ohm; field-solved 97.0 ohm with t = 12 um (-7.7 %) and 87.3 ohm with a 25 um cover too
     # (-16.8 %).
     base = dict(width_m=100 * UM, gap_m=100 * UM, height_m=50 * UM, er=3.2)
-    r0 = field_solve("coupled-microstrip", LineGeometry(thickness_m=0.0, **base), isolated_line=False)
-    r1 = field_solve("coupled-microstrip", LineGeometry(thickness_m=12 * UM, **base),
-                     isolated_line=False)
+    fast = dict(isolated_line=False, cells_per_feature=2)   # estimate ~0.2 %, ample here
+    r0 = field_solve("coupled-microstrip", LineGeometry(thickness_m=0.0, **base), **fast)
+    r1 = field_solve("coupled-microstrip", LineGeometry(thickness_m=12 * UM, **base), **fast)
     r2 = field_solve("coupled-microstrip", LineGeometry(thickness_m=12 * UM, cover_m=25 * UM,
-                                                        cover_er=3.2, **base), isolated_line=False)
+                                                        cover_er=3.2, **base), **fast)
     assert r0.z_diff_ohm == pytest.approx(105.0, rel=0.005)   # K&J 1984 within its ~0.2 % to FEM
     assert r1.z_diff_ohm == pytest.approx(97.0, rel=0.003)
     assert r2.z_diff_ohm == pytest.approx(87.3, rel=0.003)
@@ -287,7 +271,7 @@ def test_widely_spaced_pair_decouples():
     # Physics limit: with a gap of 20 heights the modes coincide with the isolated line.
     g = LineGeometry(width_m=100 * UM, gap_m=1000 * UM, height_m=50 * UM, thickness_m=12 * UM,
                      er=3.2, cover_m=25 * UM, cover_er=3.2)
-    r = field_solve("coupled-microstrip", g)
+    r = field_solve("coupled-microstrip", g, cells_per_feature=2)
     assert r.z_odd_ohm == pytest.approx(r.z0_ohm, rel=0.005)
     assert r.z_even_ohm == pytest.approx(r.z0_ohm, rel=0.005)
     assert r.z_odd_ohm < r.z0_ohm < r.z_even_ohm   # coupling lowers Z_odd and raises Z_even

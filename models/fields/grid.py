@@ -87,6 +87,11 @@ def graded_points(keys: Sequence[float], h_min: float, ratio: float, h_max: floa
             covered += n_sides * step
             h *= ratio
         rest = length - covered
+        # no sliver in the middle: give back grown cells until the remainder is a fair cell
+        while grown and rest < 0.5 * grown[-1]:
+            covered -= n_sides * grown.pop()
+            rest = length - covered
+            h /= ratio
         # fill the remainder with equal cells no larger than the next grown cell
         last = min(h, h_max)
         n_mid = max(1, int(np.ceil(rest / last - 1e-9)))
