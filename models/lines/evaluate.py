@@ -245,6 +245,12 @@ def methods_used(kind: str, geom: LineGeometry, freq_hz=None) -> list[str]:
     """The equations used for these rows, by author and year."""
     check_kind(kind)
     out = list(METHODS[kind])
+    if kind == "coplanar":
+        bg = np.asarray(geom.bottom_ground)
+        if not bool(np.any(bg)):
+            out.remove("Ghione & Naldi 1983 (conductor-backed coplanar waveguide)")
+        if bool(np.all(bg)):
+            out.remove("Ghione & Naldi 1984 (coplanar waveguide, conformal mapping)")
     if kind in ("microstrip", "coupled-microstrip") and bool(np.any(geom.cover_m > 0)):
         out.append(COVER_METHOD)
     if kind == "coplanar" and bool(np.any(geom.cover_m > 0)):

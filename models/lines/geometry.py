@@ -97,8 +97,10 @@ class LineGeometry:
                                for f in fields(self)})
 
     def take(self, index: np.ndarray) -> "LineGeometry":
-        """Rows ``index`` of a broadcast geometry (see :meth:`broadcast`)."""
-        return LineGeometry(**{f.name: getattr(self, f.name)[index] for f in fields(self)})
+        """Rows ``index`` (fields that are scalars stay scalars; 1-D fields are indexed)."""
+        def pick(a: np.ndarray) -> np.ndarray:
+            return a if a.ndim == 0 else a[index]
+        return LineGeometry(**{f.name: pick(getattr(self, f.name)) for f in fields(self)})
 
     def with_(self, **changes: object) -> "LineGeometry":
         """A copy with some fields replaced (``dataclasses.replace``)."""
