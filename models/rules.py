@@ -16,7 +16,7 @@ from typing import Literal, get_args
 
 import numpy as np
 
-from strainline.models.bending import bend_strains
+from strainline.models.bending import bend_strains, ipc2223_double_sided_radius, ipc2223_single_sided_radius
 from strainline.models.fatigue import EXTRAPOLATION_CYCLES
 from strainline.models.stackup import Stackup
 
@@ -38,6 +38,15 @@ SOURCE_TR484 = ("IPC-TR-484 (1986), copper foil ductility round robin (W. Engelm
                 "foil for severe or high-cycle flexing")
 SOURCE_BUTTON = ("K. Smith, 'Decreasing Bend Radius and Improving Reliability, Part I', trade-magazine "
                  "column (2019): button plating keeps panel plating off the bend")
+
+SOURCE_IPC_FORMULA = ("IPC-2223 single-/double-sided bend-radius formula; printed form and the allowable copper "
+                      "deformation E_B (16 % RA / 11 % ED install, 0.3 % dynamic) from memory, not checked against "
+                      "the printed standard")
+#: IPC-2223 allowable copper deformation E_B as a fraction, as recalled (from memory).
+IPC2223_EB: dict[tuple[str, str], float] = {("install", "rolled-annealed"): 0.16,
+                                            ("install", "electrodeposited"): 0.11,
+                                            ("dynamic", "rolled-annealed"): 0.003,
+                                            ("dynamic", "electrodeposited"): 0.003}
 
 #: Copper strain for a one-time install bend (common practice, no source).
 INSTALL_STRAIN_LIMIT: float = 0.02
@@ -200,6 +209,8 @@ def bend_findings(stackup: Stackup, inner_radius_m: float, use: str = "install",
                 f"{where}: inner radius below the thickness; the plane-section beam model is approximate here",
                 SOURCE_BEAM))
 
+    out.extend(ipc2223_formula_findings(stackup, inner_radius_m, use, inside_bottom))
+
     cu = stackup.copper_layers
     if cu:
         strains = elastic_copper_strains(stackup, inner_radius_m, inside_bottom, plane_strain)
@@ -253,6 +264,80 @@ def bend_findings(stackup: Stackup, inner_radius_m: float, use: str = "install",
         out.append(Finding("button-plating", "info",
                            "button plating declared: plated copper only at the holes, none on the bend conductors",
                            SOURCE_BUTTON))
+    return tuple(out)
+
+
+def ipc2223_formula_radius(stackup: Stackup, use: str,
+                           inside_bottom: bool = True) -> tuple[float, float, float] | None:
+    """IPC-2223 formula radius for a bonded single- or double-sided stack, and the formula's NA error.
+
+    Single-sided: c = copper thickness, D = dielectric between the copper and the inner face.
+    Double-sided: c = the thicker copper, d = dielectric between the copper layers, D = dielectric
+    between the inner copper and the inner face. E_B by use and copper type (:data:`IPC2223_EB`,
+    from memory; the smaller when the foils differ).
+
+    Returns
+    -------
+    (radius_m, axis_offset_m, lever_arm_m) or None
+        None for other constructions (unbonded, no copper, more than two copper layers). The
+        offset is the distance between the composite-beam neutral axis and the position the formula
+        assumes (copper mid-plane, or the mid-plane between the copper layers), m; the lever arm is
+        the formula's distance from that axis to the outer copper face (c/2, or d/2 + c), m.
+    """
+    if use not in USES:
+        raise ValueError(f"use {use!r} is not one of {list(USES)}")
+    cu = stackup.copper_layers
+    if not stackup.bonded or len(cu) not in (1, 2):
+        return None
+    layers = stackup.layers
+    eb = min(IPC2223_EB[(use, layers[i].copper.copper_type)] for i in cu)
+    t = [x.thickness_m for x in layers]
+    y_top = np.cumsum(t[::-1])[::-1]
+    y_bot = y_top - np.asarray(t)
+    total = float(y_top[0])
+    a = stackup.arrays()
+    y_na = float(bend_strains(a.thickness_m, a.modulus_pa, 1.0, inside_bottom).y_na_m[0, 0])
+    if len(cu) == 1:
+        i = cu[0]
+        c = t[i]
+        cover = float(y_bot[i]) if inside_bottom else total - float(y_top[i])
+        assumed = 0.5 * (y_bot[i] + y_top[i])
+        arm = 0.5 * c
+        r = float(ipc2223_single_sided_radius(c, cover, eb))
+    else:
+        i, j = cu
+        c = max(t[i], t[j])
+        d = float(y_bot[i] - y_top[j])
+        inner = j if inside_bottom else i
+        cover = float(y_bot[inner]) if inside_bottom else total - float(y_top[inner])
+        assumed = 0.5 * (y_bot[i] + y_top[j])
+        arm = 0.5 * d + c
+        r = float(ipc2223_double_sided_radius(c, d, cover, eb))
+    return r, abs(y_na - float(assumed)), arm
+
+
+def ipc2223_formula_findings(stackup: Stackup, inner_radius_m: float, use: str,
+                             inside_bottom: bool = True) -> tuple[Finding, ...]:
+    """Compare the radius with the IPC-2223 single-/double-sided formula (where it applies)."""
+    got = ipc2223_formula_radius(stackup, use, inside_bottom)
+    if got is None:
+        return ()
+    r_ipc, offset, arm = got
+    out: list[Finding] = []
+    n = len(stackup.copper_layers)
+    if inner_radius_m < r_ipc:
+        out.append(Finding(
+            "ipc2223-formula-radius", "warning",
+            f"inner radius {inner_radius_m * 1e3:.3f} mm is below the IPC-2223 {'single' if n == 1 else 'double'}-sided "
+            f"formula radius {r_ipc * 1e3:.3f} mm for {use} use",
+            SOURCE_IPC_FORMULA))
+    if offset > 0.1 * arm:
+        out.append(Finding(
+            "ipc2223-formula-unbalanced", "info",
+            f"the neutral axis sits {offset * 1e6:.1f} um from where the IPC-2223 formula assumes it (unbalanced "
+            f"build; {100 * offset / arm:.0f} % of its {arm * 1e6:.1f} um lever arm): the formula does not apply, "
+            "use the composite-beam strain",
+            SOURCE_IPC_FORMULA))
     return tuple(out)
 
 

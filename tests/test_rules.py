@@ -119,3 +119,25 @@ def test_every_finding_has_a_source_and_valid_severity():
             assert f.source.strip() and f.severity in rules.SEVERITIES
     with pytest.raises(ValueError):
         rules.bend_findings(s, 1e-3, "sometimes")
+
+
+def test_ipc2223_formula_finding_matches_general_model_on_balanced_build():
+    # IPC-2223 single-sided formula (from memory), E_B 0.3 % dynamic: R = 9 (0.997/0.003) - 45 um
+    # = 2946 um for the balanced 45/18/45 build (bending note §2.2 worked number 2946 um)
+    s = single_sided()
+    r_ipc, offset, arm = rules.ipc2223_formula_radius(s, "dynamic")
+    assert r_ipc == pytest.approx(2946e-6, abs=0.5e-6) and offset == pytest.approx(0.0, abs=1e-12)
+    assert "ipc2223-formula-radius" in codes(rules.bend_findings(s, 0.99 * r_ipc, "dynamic"))
+    assert "ipc2223-formula-radius" not in codes(rules.bend_findings(s, 1.01 * r_ipc, "dynamic"))
+    # install, RA: E_B 16 % -> 2.25 um (§2.2)
+    assert rules.ipc2223_formula_radius(s, "install")[0] == pytest.approx(2.25e-6, abs=0.01e-6)
+    # double-sided, c = 18, d = 25, D = 37.5 um, E_B 0.3 % -> 10 099 um (§2.2)
+    d = Stackup((diel("f1", 12.5), diel("a1", 25, 1.0, family="adhesive"), cu("c1"), diel("core", 25, 5.0),
+                 cu("c2"), diel("a2", 25, 1.0, family="adhesive"), diel("f2", 12.5)))
+    assert rules.ipc2223_formula_radius(d, "dynamic")[0] == pytest.approx(10099e-6, abs=0.5e-6)
+    assert arm == pytest.approx(9e-6, rel=1e-12)
+    # unbalanced single-sided (no cover): the axis sits 2.1 um (23 % of c/2) below the copper centre
+    # (hand: (118*18*59 + 2.8*50*25)/(118*18 + 2.8*50) = 56.90 um vs 59 um) -> info finding
+    bare = Stackup((cu("c"), diel("base", 50)))
+    assert "ipc2223-formula-unbalanced" in codes(rules.bend_findings(bare, 5e-3, "install"))
+    assert "ipc2223-formula-unbalanced" not in codes(rules.bend_findings(s, 5e-3, "install"))
