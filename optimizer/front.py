@@ -357,6 +357,9 @@ def write_outputs(front: dict[str, Any], out_dir: Path) -> list[Path]:
         write_atomic(out_dir / "front.json", json.dumps(front, indent=1, allow_nan=False) + "\n"),
         write_atomic(out_dir / "front.csv", front_csv(front)),
     ]
+    from strainline.optimizer.report import write_all   # report.html + handoff/ (built in memory first)
+
+    paths += write_all(front, out_dir)
     return paths
 
 

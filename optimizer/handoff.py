@@ -37,6 +37,7 @@ from strainline.optimizer.report import (
     _try_catalog,
     cautions,
     check_front,
+    figure,
     findings_of,
     fmt,
     reference_indices,
@@ -110,6 +111,10 @@ class Sheet:
 
     def section(self, name: str) -> list[Row]:
         return [r for r in self.rows if r.section == name]
+
+
+def _isnum(v: Any) -> bool:
+    return isinstance(v, (int, float)) and not isinstance(v, bool)
 
 
 # ----------------------------------------------------------------------------- resolving from the catalog
@@ -262,8 +267,8 @@ def build_sheet(cand: Mapping[str, Any], front: Mapping[str, Any], catalog: Any 
         sheet.stackup.append(row)
         sheet.rows.extend(row.values())
 
-    total = obj["total_thickness_um"]
-    sheet.add("total", "overall", "total thickness", total, "um", "objectives.total_thickness_um")
+    total, total_key = figure(cand, "total_thickness_um")
+    sheet.add("total", "overall", "total thickness", total, "um", total_key)
     tot_tol, tot_src = _total_tolerance_um(float(total), catalog)
     sheet.add("total", "overall", "total thickness tolerance (+/-)", tot_tol, "um", "", tot_src)
     if tol_sum_sq > 0:
@@ -352,11 +357,15 @@ def build_sheet(cand: Mapping[str, Any], front: Mapping[str, Any], catalog: Any 
         sheet.add("bend", "bend", "neutral axis above the bottom face", na, "um", "bend.neutral_axis_um")
     sheet.add("bend", "bend", "inner radius / total thickness", bend.get("radius_to_thickness"), "",
               "bend.radius_to_thickness")
-    sheet.add("bend", "bend", "peak copper strain (estimate)", obj["peak_strain_pct"], "%", "objectives.peak_strain_pct",
+    peak, peak_key = figure(cand, "peak_strain_pct")
+    sheet.add("bend", "bend", "peak copper strain (estimate)", peak, "%", peak_key,
               "tension positive; convention below")
-    if "signal_strain_pct" in obj:
+    if _isnum(obj.get("signal_strain_pct")):
         sheet.add("bend", "bend", "signal copper strain (estimate)", obj["signal_strain_pct"], "%",
                   "objectives.signal_strain_pct")
+    elif _isnum(bend.get("signal_copper_strain_pct")):
+        sheet.add("bend", "bend", "signal copper strain (estimate)", bend["signal_copper_strain_pct"], "%",
+                  "bend.signal_copper_strain_pct")
     if bend.get("cycles_to_failure") is not None:
         sheet.add("bend", "bend", "copper cycles to failure (Engelmaier estimate)", bend.get("cycles_to_failure"),
                   "cycles", "bend.cycles_to_failure",
@@ -364,7 +373,7 @@ def build_sheet(cand: Mapping[str, Any], front: Mapping[str, Any], catalog: Any 
     named = {"loss_db_per_m": ("line loss, conductor + dielectric (estimate)", "dB/m"),
              "cycles": ("copper cycles to failure (objective)", "cycles")}
     for ok, ov in obj.items():
-        if ok not in ("peak_strain_pct", "total_thickness_um", "signal_strain_pct"):
+        if ok not in ("peak_strain_pct", "total_thickness_um", "signal_strain_pct", "cycles_to_failure"):
             lab, unit = named.get(ok, (ok.replace("_", " "), ""))
             sheet.add("objectives", "objective", lab, ov, unit, f"objectives.{ok}")
 
@@ -459,8 +468,15 @@ def sheet_html(sheet: Sheet) -> str:
     notes = "".join(f"<li><b>{_e(sev)}</b> {_e(text)} <span class='src'>Source: {_e(src)}</span></li>"
                     for sev, text, src in sheet.notes)
     caution = "".join(f"<p>{_e(c)}</p>" for c in sheet.cautions)
-    imp = sheet.section("impedance") + sheet.section("field-check")
+    wide = [r for r in sheet.section("impedance") + sheet.section("field-check")
+            if r.quantity in ("equation used", "field-solver check")]
+    imp = [r for r in sheet.section("impedance") + sheet.section("field-check") if r not in wide]
     bend = sheet.section("bend") + sheet.section("objectives")
+    wide_html = "".join(
+        f'<p class="wide"><b>{_e(r.quantity)}:</b> <span'
+        + (f' data-key="{_e(r.key)}" data-value="{_e(_csv_value(r.value))}"' if r.key else "")
+        + f">{_e(r.value)}</span>" + (f' <span class="n">({_e(r.note)})</span>' if r.note else "") + "</p>"
+        for r in wide)
     return f"""<!DOCTYPE html>
 <html lang="en"><head><meta charset="utf-8">
 <title>Fabrication sheet {_e(sheet.candidate_id)} ({_e(sheet.study)})</title>
@@ -485,6 +501,7 @@ neighbouring adhesive.</p>
 <div><h2>2. Controlled impedance</h2>{_rows_table(imp)}</div>
 <div><h2>3. Bend requirements</h2>{_rows_table(bend)}</div>
 </div>
+{wide_html}
 <h2>4. Notes</h2><ul class="notes">{notes}</ul>
 <p class="n">{_e(STRAIN_CONVENTION)}</p>
 <footer>{caution}</footer>
@@ -499,7 +516,7 @@ def index_html(front: Mapping[str, Any], sheets: list[Sheet]) -> str:
         o, ln, bd = c["objectives"], c.get("line") or {}, c.get("bend") or {}
         rows.append(
             f"<tr><td class='t'><a href='{_e(sh.candidate_id)}.html'>{_e(sh.candidate_id)}</a></td>"
-            f"<td>{_e(fmt(o['total_thickness_um']))}</td><td>{_e(fmt(o['peak_strain_pct']))}</td>"
+            f"<td>{_e(fmt(figure(c, 'total_thickness_um')[0]))}</td><td>{_e(fmt(figure(c, 'peak_strain_pct')[0]))}</td>"
             f"<td class='t'>{_e(ln.get('type', '-'))}</td><td>{_e(fmt(ln.get('width_um')))}</td>"
             f"<td>{_e(fmt(ln.get('z_diff_ohm') if ln.get('z_diff_ohm') is not None else ln.get('z0_ohm')))}</td>"
             f"<td>{_e(fmt(bd.get('inner_radius_mm')))}</td><td>{_e(fmt(bd.get('cycles_to_failure'), 3))}</td>"
@@ -588,6 +605,7 @@ ul.notes { padding-left: 18px; margin: 4px 0; }
 ul.notes li { margin: 2px 0; }
 ul.notes b { text-transform: uppercase; font-size: 10.5px; color: #8a5a00; margin-right: 4px; }
 .src { color: #5c6675; font-size: 11px; }
+p.wide { margin: 4px 0; }
 footer { margin-top: 12px; border-top: 1px solid #d5dbe3; color: #5c6675; font-size: 11px; }
 @media print {
   @page { size: A4; margin: 11mm 10mm; }

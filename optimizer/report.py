@@ -106,11 +106,17 @@ def check_front(front: Any, where: str = "front.json") -> dict:
             raise InputError(f"duplicate id {cid!r}", f"{field}.id")
         seen.add(cid)
         obj = c.get("objectives")
-        if not isinstance(obj, Mapping):
-            raise InputError("missing 'objectives'", f"{field}.objectives")
+        if not isinstance(obj, Mapping) or not obj:
+            raise InputError("missing 'objectives' (a non-empty object)", f"{field}.objectives")
+        for key, value in obj.items():
+            if value is not None and not _num(value):
+                raise InputError(f"{key!r} is not a number: {value!r}", f"{field}.objectives.{key}")
         for key in ("peak_strain_pct", "total_thickness_um"):
-            if not _num(obj.get(key)):
-                raise InputError(f"missing or non-numeric {key!r}: {obj.get(key)!r}", f"{field}.objectives.{key}")
+            bend = c.get("bend") if isinstance(c.get("bend"), Mapping) else {}
+            alt = "peak_copper_strain_pct" if key == "peak_strain_pct" else key
+            if not _num(obj.get(key)) and not _num(bend.get(alt)):
+                raise InputError(f"missing or non-numeric {key!r} (nor bend.{alt}): {obj.get(key)!r}",
+                                 f"{field}.objectives.{key}")
         layers = c.get("layers")
         if not isinstance(layers, list) or not layers:
             raise InputError("missing 'layers' (a non-empty list, top to bottom)", f"{field}.layers")
@@ -335,6 +341,19 @@ def cautions(front: Mapping[str, Any]) -> list[str]:
     return out
 
 
+def figure(cand: Mapping[str, Any], key: str) -> tuple[float, str]:
+    """Peak copper strain or total thickness of a candidate and the front.json field it comes from.
+
+    The objectives hold them when the study optimises them; else the bend block does
+    (``bend.peak_copper_strain_pct``, ``bend.total_thickness_um``).
+    """
+    obj = cand.get("objectives") or {}
+    if _num(obj.get(key)):
+        return float(obj[key]), f"objectives.{key}"
+    alt = "peak_copper_strain_pct" if key == "peak_strain_pct" else key
+    return float(cand["bend"][alt]), f"bend.{alt}"
+
+
 def findings_of(cand: Mapping[str, Any]) -> list[dict[str, str]]:
     """Findings as dicts {code, severity, message, source}; plain strings are accepted."""
     out = []
@@ -370,9 +389,12 @@ def _page_data(front: Mapping[str, Any], catalog: Any | None) -> dict[str, Any]:
     for c in cands:
         layers = c["layers"]
         hts = layer_heights(layers)
+        figures = dict(c["objectives"])
+        for key in ("peak_strain_pct", "total_thickness_um"):
+            figures[key] = figure(c, key)[0]
         view.append({
             "id": c["id"],
-            "objectives": c["objectives"],
+            "objectives": figures,
             "line": c.get("line") or {},
             "bend": c.get("bend") or {},
             "layers": [dict(lay, bottom_um=b, top_um=t, family=family_of(lay, catalog),
@@ -383,6 +405,7 @@ def _page_data(front: Mapping[str, Any], catalog: Any | None) -> dict[str, Any]:
             "findings": findings_of(c),
         })
     objectives = [k for k in cands[0]["objectives"] if all(_num(c["objectives"].get(k)) for c in cands)] if cands else []
+    objectives += [k for k in ("peak_strain_pct", "total_thickness_um") if k not in objectives]
     dominated = front.get("dominated") or front.get("dominated_points") or []
     dom = []
     for d in dominated if isinstance(dominated, list) else []:

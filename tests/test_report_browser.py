@@ -14,9 +14,12 @@ from pathlib import Path
 
 import pytest
 
-from strainline.optimizer.report import write_all
+from strainline.optimizer.cli import main
+from strainline.optimizer.report import figure, write_all
 
 FIXTURE = Path(__file__).parent / "fixtures" / "front_small.json"
+#: a shipped study with a differential (coupled) line, the most elaborate drawing
+SOLVED_STUDY = Path(__file__).resolve().parents[1] / "studies" / "gimbal-camera-tail.yaml"
 CHROMIUM = shutil.which("chromium") or "/usr/bin/chromium"
 ARGS = ["--no-sandbox", "--disable-gpu", "--disable-background-networking", "--disable-component-update",
         "--no-first-run", "--disable-sync"]
@@ -37,11 +40,17 @@ def browser_ctx():
     shutil.rmtree(profile, ignore_errors=True)
 
 
-@pytest.fixture(scope="module")
-def built(tmp_path_factory):
-    out = tmp_path_factory.mktemp("report")
-    front = json.loads(FIXTURE.read_text(encoding="utf-8"))
-    write_all(front, out)
+@pytest.fixture(scope="module", params=["fixture", "solved"])
+def built(request, tmp_path_factory):
+    """A report built from the hand-made fixture, and one from a real `strainline solve` run."""
+    out = tmp_path_factory.mktemp(request.param)
+    if request.param == "fixture":
+        front = json.loads(FIXTURE.read_text(encoding="utf-8"))
+        write_all(front, out)
+    else:
+        assert main(["solve", str(SOLVED_STUDY), "--out", str(out), "--budget", "500", "--quiet"]) == 0
+        front = json.loads((out / "front.json").read_text(encoding="utf-8"))
+        assert front["candidates"]
     return out, front
 
 
@@ -85,15 +94,22 @@ def test_report_loads_offline_and_selecting_updates_plots(browser_ctx, built, tm
         assert cand["id"] in page.inner_text("#cand-title")
         # the strain profile shows this candidate's face strains (front.json values, exactly)
         xs = page.evaluate("document.getElementById('strain').data.map(t => t.x)")
-        want = [[lay["strain_bottom_pct"], lay["strain_top_pct"]] for lay in cand["layers"] if lay["thickness_um"] > 0]
+        want = [[lay["strain_bottom_pct"], lay["strain_top_pct"]] for lay in cand["layers"]
+                if lay["thickness_um"] > 0 and lay["kind"] != "air-gap"]
         assert xs == want
         # the cross-section is to scale and the signal trace has the solved width
         lay = page.evaluate("document.getElementById('section').layout.yaxis")
         assert lay["scaleanchor"] == "x" and lay["scaleratio"] == 1
-        sig = page.evaluate("document.getElementById('section').data.filter(t => t.name === 'signal')[0].x")
-        assert max(sig) - min(sig) == pytest.approx(cand["line"]["width_um"], rel=1e-12)
-        na = page.evaluate("document.getElementById('section').layout.shapes[0].y0")
-        assert na == cand["bend"]["neutral_axis_um"]
+        sigs = page.evaluate("document.getElementById('section').data.filter(t => t.name === 'signal').map(t => t.x)")
+        assert len(sigs) == (2 if "coupled" in cand["line"]["type"] else 1)
+        for sig in sigs:
+            assert max(sig) - min(sig) == pytest.approx(cand["line"]["width_um"], rel=1e-12)
+        if len(sigs) == 2:                    # the pair's edge-to-edge gap, drawn to scale
+            edges = sorted([min(sigs[0]), max(sigs[0]), min(sigs[1]), max(sigs[1])])
+            assert edges[2] - edges[1] == pytest.approx(cand["line"]["gap_um"], rel=1e-12)
+        na = page.evaluate("document.getElementById('section').layout.shapes.map(s => s.y0)")
+        want_na = cand["bend"]["neutral_axis_um"]
+        assert na == (want_na if isinstance(want_na, list) else [want_na])
         # per-layer table follows the selection
         rows = page.locator("#layer-table tbody tr").count()
         assert rows == len(cand["layers"])
@@ -103,19 +119,22 @@ def test_report_loads_offline_and_selecting_updates_plots(browser_ctx, built, tm
         # sortable table: total thickness ascending, then descending
         page.click("#cand-table thead th[data-k='total_thickness_um']")
         col = page.evaluate("[...document.querySelectorAll('#cand-table thead th')].findIndex(th => th.dataset.k === 'total_thickness_um')")
-        vals = page.evaluate(f"[...document.querySelectorAll('#cand-table tbody tr')].map(r => Number(r.children[{col}].dataset.v))")
-        assert vals == sorted(c["objectives"]["total_thickness_um"] for c in front["candidates"])
+        thick = [figure(c, "total_thickness_um")[0] for c in front["candidates"]]
+        rows_v = f"[...document.querySelectorAll('#cand-table tbody tr')].map(r => Number(r.children[{col}].dataset.v))"
+        assert page.evaluate(rows_v) == sorted(thick)
         page.click("#cand-table thead th[data-k='total_thickness_um']")
-        vals = page.evaluate(f"[...document.querySelectorAll('#cand-table tbody tr')].map(r => Number(r.children[{col}].dataset.v))")
-        assert vals == sorted((c["objectives"]["total_thickness_um"] for c in front["candidates"]), reverse=True)
+        assert page.evaluate(rows_v) == sorted(thick, reverse=True)
         # clicking a table row selects too
         page.click("#cand-table tbody tr:nth-child(1) td:nth-child(1)")
-        thickest = max(range(n), key=lambda i: front["candidates"][i]["objectives"]["total_thickness_um"])
-        page.wait_for_function(f"window.strainline.state.selected === {thickest}", timeout=10000)
-        # objective-pair toggle (three objectives in the fixture) changes the front's axes
-        page.click("#pair-buttons button:nth-child(2)")
-        xt = page.evaluate("document.getElementById('front').layout.xaxis.title.text")
-        assert "total thickness" not in xt
+        first = page.evaluate("Number(document.querySelector('#cand-table tbody tr').dataset.i)")
+        assert thick[first] == max(thick)
+        page.wait_for_function(f"window.strainline.state.selected === {first}", timeout=10000)
+        # objective-pair toggle (three or more objectives here) changes the front's axes
+        xt0 = page.evaluate("document.getElementById('front').layout.xaxis.title.text")
+        page.click("#pair-buttons button:not(.on)")
+        xt1 = page.evaluate("document.getElementById('front').layout.xaxis.title.text")
+        yt1 = page.evaluate("document.getElementById('front').layout.yaxis.title.text")
+        assert (xt1, yt1) != (xt0, "peak copper strain (%)")
         # parallel coordinates drawn
         assert page.evaluate("document.querySelectorAll('#parcoords .y-axis').length") >= 2
         # cautions in plain view
