@@ -323,7 +323,7 @@ def _mode_result(sec: _Section, mode: str, cells_per_feature: float, open_margin
 
 
 def field_solve(kind: str, geom: Any, *, cells_per_feature: float = 3.0, levels: int = 3,
-                open_margin: float = 60.0, isolated_line: bool = True,
+                open_margin: float = 60.0, isolated_line: bool = True, even_mode: bool = True,
                 layers_below: Sequence[tuple[float, float]] | None = None,
                 ground_width_m: float | None = None) -> FieldResult:
     """Field-solve one cross-section.
@@ -347,6 +347,9 @@ def field_solve(kind: str, geom: Any, *, cells_per_feature: float = 3.0, levels:
         cross-section dimension (the box perturbs Z0 by roughly its inverse square).
     isolated_line : bool
         Pairs: also solve one line of the pair alone for ``z0_ohm`` (otherwise ``nan``).
+    even_mode : bool
+        Pairs: also solve the even mode (otherwise ``z_even_ohm``, ``z_common_ohm`` and
+        ``eps_eff_even`` are ``nan``; Z_diff needs the odd mode only).
     layers_below : sequence of (thickness_m, dk), optional
         Dielectric layers from the plane (y = 0) up to the trace's bottom face, overriding
         ``height_m`` and ``er`` (each layer its own Dk).
@@ -374,7 +377,10 @@ def field_solve(kind: str, geom: Any, *, cells_per_feature: float = 3.0, levels:
     args = (cells_per_feature, open_margin, levels)
     if kind in PAIR_KINDS:
         zo, eo, go, po, n1 = _mode_result(sec, "odd", *args)
-        ze, ee, ge, pe, _ = _mode_result(sec, "even", *args)
+        ze = ee = nan
+        ge, pe = 0.0, math.inf
+        if even_mode:
+            ze, ee, ge, pe, _ = _mode_result(sec, "even", *args)
         z0 = e0 = nan
         g0, p0 = 0.0, math.inf
         if isolated_line:
@@ -402,7 +408,8 @@ class WidthSolution:
         True when the full solve at ``width_m`` is within ``tol_pct`` of the target and inside
         [width_min_m, width_max_m].
     result : FieldResult
-        Full field solution at ``width_m`` (or at the last width tried when not ok).
+        Full field solution at ``width_m`` (or at the last width tried when not ok); for pairs the
+        odd mode only (the target Z_diff = 2 Z_odd needs nothing else).
     solves : int
         Field solves used (cheap and full).
     """
@@ -461,12 +468,12 @@ def field_solve_width(kind: str, target_ohm: float, geom: Any, width_start_m: fl
     def full(w: float) -> FieldResult:
         nonlocal solves
         solves += 1
-        return field_solve(kind, _with_width(geom, w), isolated_line=False, **kw)
+        return field_solve(kind, _with_width(geom, w), isolated_line=False, even_mode=False, **kw)
 
     def cheap(w: float) -> float:
         nonlocal solves
         solves += 1
-        r = field_solve(kind, _with_width(geom, w), isolated_line=False, levels=1,
+        r = field_solve(kind, _with_width(geom, w), isolated_line=False, even_mode=False, levels=1,
                         cells_per_feature=cells_per_feature * 2.0, open_margin=open_margin,
                         layers_below=layers_below, ground_width_m=ground_width_m)
         return r.target_ohm

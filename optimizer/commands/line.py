@@ -91,6 +91,9 @@ def register(subparsers) -> argparse.ArgumentParser:
     p.add_argument("--no-bottom-ground", action="store_true",
                    help="coplanar: no ground plane under the substrate")
     p.add_argument("--json", action="store_true", help="print one JSON object")
+    p.add_argument("--field-solve", action="store_true",
+                   help="also solve the cross-section with the 2-D field solver (with --target-ohm: "
+                        "the field-solved width); adds the object 'field'")
     return p
 
 
@@ -298,8 +301,12 @@ def run(args: argparse.Namespace) -> int:
                             "the DC resistance is used as a floor")
         findings.append("conductor loss uses annealed-copper conductivity 5.80e7 S/m (IEC 60028)")
     d = build_result(args, geom, result, loss, findings)
+    if args.field_solve:
+        from strainline.optimizer.verify import field_for_line, field_text
+        d["field"] = field_for_line(kind, geom, args.target_ohm, d.get("z_diff_ohm", d["z0_ohm"]),
+                                    (WIDTH_MIN_UM, WIDTH_MAX_UM))
     if args.json:
         print(json.dumps(d, indent=2))
     else:
-        print(format_text(d))
+        print(format_text(d) + ("\n" + field_text(d["field"]) if args.field_solve else ""))
     return 0
