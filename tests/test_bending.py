@@ -441,3 +441,22 @@ def test_epp_leaf_equals_separate_leaf():
         np.testing.assert_allclose(both.strain_top[:, :3], up.strain_top, rtol=1e-9)
         np.testing.assert_allclose(both.strain_bottom[:, 4:], low.strain_bottom, rtol=1e-9)
         np.testing.assert_allclose(both.y_na_m[0, 4], low.y_na_m[0, 0], rtol=1e-9)
+
+
+@settings(max_examples=40, deadline=None)
+@given(st.lists(st.tuples(layer_t, layer_e, st.booleans()), min_size=1, max_size=7), st.floats(0.05, 20.0),
+       st.booleans(), st.floats(2e-4, 3e-3))
+def test_property_epp_axis_inside_and_balanced(layers, r_mm, inside_bottom, eps_y):
+    # force balance of the solved axis, checked with the per-layer closed-form integral of axial_force
+    # (a separate code path from the bisection's division-free sum)
+    t = np.array([[x[0] for x in layers]]) * UM
+    e = np.array([[x[1] for x in layers]]) * GPA
+    is_cu = np.array([[x[2] for x in layers]])
+    ey = np.where(is_cu, e, 0.0)
+    cap = np.where(is_cu, eps_y, np.inf)
+    p = b.epp_bend_strains(t, e, ey, cap, r_mm * 1e-3, inside_bottom)
+    na = p.y_na_m[0, 0]
+    assert -1e-15 <= na <= t.sum() * (1 + 1e-12)
+    f = b.axial_force(t, e, ey, cap, p.strain_top, p.strain_bottom)
+    scale = np.sum(e * t * (np.abs(p.strain_top) + np.abs(p.strain_bottom)))   # an all-elastic force size
+    assert abs(f.sum()) <= 1e-9 * scale
