@@ -146,7 +146,7 @@ def test_solve_width_round_trip_with_reachable_and_unreachable_targets(kind):
     # ok rows: inside the range, and the evaluated impedance hits the target
     assert np.all((w[ok] >= wmin * (1 - 1e-12)) & (w[ok] <= wmax * (1 + 1e-12)))
     r = evaluate_line(kind, g.with_(width_m=w))
-    np.testing.assert_allclose(r.target_ohm[ok], target[ok], rtol=1e-9)
+    np.testing.assert_allclose(r.target_ohm[ok], target[ok], rtol=1e-8)
     # not-ok rows are exactly those whose target lies outside [Z(wmax), Z(wmin)]
     z_wide = evaluate_line(kind, g.with_(width_m=np.full(g.n, wmax))).target_ohm
     z_narrow = evaluate_line(kind, g.with_(width_m=np.full(g.n, wmin))).target_ohm
@@ -166,7 +166,7 @@ def test_solve_width_batch_equals_loop_and_chunking():
     w, ok = solve_width("microstrip", target, g, 10 * UM, 2000 * UM)
     w2, ok2 = solve_width("microstrip", target, g, 10 * UM, 2000 * UM, chunk=7)
     np.testing.assert_array_equal(ok, ok2)
-    np.testing.assert_allclose(w2[ok], w[ok], rtol=1e-9)
+    np.testing.assert_allclose(w2[ok], w[ok], rtol=1e-8)
     for i in range(g.n):
         wi, oki = solve_width("microstrip", target[i], g.take(np.array([i])), 10 * UM, 2000 * UM)
         assert oki[0] == ok[i]
@@ -179,7 +179,7 @@ def test_solve_width_dispersive_microstrip():
     w, ok = solve_width("microstrip", 50.0, g, 10 * UM, 2000 * UM, freq_hz=40e9)
     assert ok.all()
     r = evaluate_line("microstrip", g.with_(width_m=w), freq_hz=40e9)
-    np.testing.assert_allclose(r.z0_ohm, 50.0, rtol=1e-9)
+    np.testing.assert_allclose(r.z0_ohm, 50.0, rtol=1e-8)
 
 
 @pytest.mark.parametrize("kind", ["coupled-microstrip", "coupled-stripline", "coplanar"])
@@ -203,7 +203,7 @@ def test_solve_gap_round_trip(kind):
     assert not ok[far].any()
     assert ok[~far & regular].all()
     r = evaluate_line(kind, g.with_(gap_m=s))
-    np.testing.assert_allclose(r.target_ohm[ok], target[ok], rtol=1e-9)
+    np.testing.assert_allclose(r.target_ohm[ok], target[ok], rtol=1e-8)
     assert np.all(np.isnan(s[~ok]))
 
 

@@ -25,13 +25,15 @@ from strainline.models.lines.evaluate import check_kind
 from strainline.models.lines.geometry import GAP_KINDS, LineGeometry
 from strainline.models.lines.microstrip import MicrostripKernel, hj_eps, hj_width_corrections, microstrip
 from strainline.models.lines.stripline import stripline
+from strainline.models.units import ETA0
 
-#: Convergence: |ln Z - ln Z_target| below this (relative impedance error; the next secant step
-#: is not taken, so the error is usually far smaller).
-FTOL = 1e-10
+#: Convergence: |ln Z - ln Z_target| below this (relative impedance error) at a verified point;
+#: the returned width takes one more secant step from there, so the error is usually round-off.
+FTOL = 1e-8
 #: A solved row is accepted when its final relative impedance error is below this.
-ACCEPT = 1e-9
+ACCEPT = 1e-8
 _CHUNK = 16384
+_ETA_2PI = (ETA0 / (2.0 * np.pi)) ** 2
 
 
 def target_impedance(kind: str, geom: LineGeometry, freq_hz=None) -> np.ndarray:
@@ -96,71 +98,138 @@ def _microstrip_start(target, g: LineGeometry, kern: MicrostripKernel) -> tuple[
     return np.log(u0 * g.height_m), slope
 
 
-def _secant(fun: Callable[[np.ndarray, np.ndarray], np.ndarray], lo: np.ndarray, hi: np.ndarray,
-            x0: np.ndarray, slope0: np.ndarray, sign: float, active: np.ndarray,
-            ends_known: bool = False, max_iter: int = 80) -> tuple[np.ndarray, np.ndarray]:
-    """Safeguarded secant on rows ``active`` (bool): returns (x, ok).
+def _fast_secant(fun: Callable[[np.ndarray], np.ndarray], lo: np.ndarray, hi: np.ndarray, x0: np.ndarray,
+                 slope0: np.ndarray, steps: int = 3) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """A fixed number of plain secant steps on every row (no bookkeeping), clipped to [lo, hi].
 
-    ``fun(rows, x)`` gives f for the integer index ``rows`` (None = all rows); ``sign`` is +1
-    when f increases with x and -1 when it decreases. ``slope0`` is df/dx for the first step;
-    ``ends_known`` says f was already evaluated at both range ends (no need to try them).
+    Evaluates at ``x0``, takes one slope step, then ``steps`` secant steps (``steps + 1``
+    evaluations in all). Returns (x, ok, x_last, slope_last): ``ok`` where
+    the last verified residual is within FTOL (x is then that point plus one unverified secant
+    step, see :data:`FTOL`); ``x_last``/``slope_last`` warm-start the safeguarded solver for the
+    other rows.
+    """
+    x = np.clip(x0, lo, hi)
+    f = fun(x)
+    xn = np.clip(x - f / slope0, lo, hi)
+    fn = f
+    for _ in range(steps):
+        fn = fun(xn)
+        d = fn - f
+        step = np.where(d != 0.0, fn * (xn - x) / np.where(d != 0.0, d, 1.0), 0.0)
+        slope = np.where(d != 0.0, d / np.where(xn != x, xn - x, 1.0), slope0)
+        x, f = xn, fn
+        xn = np.clip(x - step, lo, hi)
+    ok = np.abs(f) <= FTOL
+    out = np.where(ok & np.isfinite(xn), xn, x)
+    slope = np.where(np.isfinite(slope) & (slope < 0), slope, slope0)
+    return out, ok, x, slope
+
+
+class _Rows:
+    """f(x) for the active rows of a solve; ``keep(mask)`` drops finished rows (compaction keeps
+    every per-row array contiguous, so an iteration does no gathers)."""
+
+    def __init__(self, arrays: dict[str, np.ndarray], fn: Callable[..., np.ndarray]) -> None:
+        self.a = arrays
+        self.fn = fn
+
+    def __call__(self, x: np.ndarray) -> np.ndarray:
+        return self.fn(x, **self.a)
+
+    def keep(self, mask: np.ndarray) -> None:
+        self.a = {k: v[mask] for k, v in self.a.items()}
+
+
+def _secant(fun: _Rows, lo: np.ndarray, hi: np.ndarray, x0: np.ndarray, slope0: np.ndarray,
+            sign: float, active: np.ndarray, ends_known: bool = False,
+            max_iter: int = 80) -> tuple[np.ndarray, np.ndarray]:
+    """Safeguarded secant on rows ``active`` (bool): returns (x, ok) for all rows.
+
+    ``fun`` evaluates f on the active rows (all rows of the chunk at the start; ``active`` rows
+    only are kept before the first evaluation); ``sign`` is +1 when f increases with x and -1 when
+    it decreases; ``slope0`` is df/dx for the first step; ``ends_known`` says f was already
+    evaluated at both range ends (no need to try them).
+
+    Safeguards: a step that leaves the bracket goes to the untried range end once, else bisects;
+    a flat f or an |f| that did not halve (secant stagnating on one side) bisects.
     """
     m = lo.size
-    lo0, hi0 = lo.copy(), hi.copy()
-    lo, hi = lo.copy(), hi.copy()
-    x = np.clip(np.where(np.isfinite(x0), x0, 0.5 * (lo + hi)), lo, hi)
-    xp = np.full(m, np.nan)
-    fp = np.full(m, np.nan)
-    fx = np.full(m, np.nan)
-    done = np.zeros(m, dtype=bool)
-    tried_lo = np.full(m, ends_known)
-    tried_hi = np.full(m, ends_known)
-    rows = np.flatnonzero(active & np.isfinite(lo) & np.isfinite(hi) & (lo <= hi))
+    x_out = np.full(m, np.nan)
+    f_out = np.full(m, np.nan)
+    ok_out = np.zeros(m, dtype=bool)
+    start = active & np.isfinite(lo) & np.isfinite(hi) & (lo <= hi)
+    rows = np.flatnonzero(start)
+    if rows.size < m:
+        fun.keep(start)
+    l0, h0 = lo[rows], hi[rows]
+    lo_, hi_ = l0.copy(), h0.copy()
+    x = np.clip(np.where(np.isfinite(x0[rows]), x0[rows], 0.5 * (l0 + h0)), l0, h0)
+    inv_slope = 1.0 / slope0[rows]
+    xp = fp = None
+    t_lo = np.full(rows.size, ends_known)
+    t_hi = np.full(rows.size, ends_known)
     for _ in range(max_iter):
         if rows.size == 0:
             break
-        # all rows active: plain slices (no gathers); otherwise fancy indexing
-        idx = slice(None) if rows.size == m else rows
-        xr = x[idx]
-        fr = fun(None if rows.size == m else rows, xr)
-        fx[idx] = fr
-        right = sign * fr < 0.0                       # the root lies at larger x
-        lor = np.where(right, xr, lo[idx])
-        hir = np.where(right, hi[idx], xr)
-        lo[idx] = lor
-        hi[idx] = hir
-        l0 = lo0[idx]
-        h0 = hi0[idx]
-        out = ((xr <= l0) & ~right) | ((xr >= h0) & right)      # root beyond a range end
-        conv = np.abs(fr) <= FTOL
-        tiny = (hir - lor) <= 1e-13 * np.maximum(1.0, np.abs(xr))
-        stop = conv | tiny | out | ~np.isfinite(fr)
-        xpr = xp[idx]
-        dfx = fr - fp[idx]
-        first = ~np.isfinite(xpr)
-        use_sec = ~first & (dfx != 0.0)
-        dxdf = np.where(use_sec, (xr - xpr) / np.where(use_sec, dfx, 1.0), 1.0 / slope0[idx])
-        xn = xr - fr * dxdf
-        t_lo = tried_lo[idx] | (xr <= l0)
-        t_hi = tried_hi[idx] | (xr >= h0)
-        tried_lo[idx] = t_lo
-        tried_hi[idx] = t_hi
-        # safeguards: leaving the bracket -> the untried range end once, else bisect; a flat f or a
-        # step that did not halve (secant stagnating on one side) -> bisect
-        go_lo = ~(xn > lor) & ~t_lo
-        go_hi = ~(xn < hir) & ~t_hi
-        slow = ~first & ~(np.abs(xn - xr) <= 0.5 * np.abs(xr - xpr))
-        bisect = (~(xn > lor) | ~(xn < hir) | (~first & ~use_sec) | slow) & ~go_lo & ~go_hi
-        xn = np.where(go_lo, l0, np.where(go_hi, h0, np.where(bisect, 0.5 * (lor + hir), xn)))
-        done[idx] = stop & (conv | tiny) & np.isfinite(fr)
-        xp[idx] = xr
-        fp[idx] = fr
-        keep = ~stop
-        rk = rows[keep]
-        x[rk] = xn[keep]
-        rows = rk
-    ok = done & (np.abs(fx) <= ACCEPT)
-    return x, ok
+        f = fun(x)
+        right = sign * f < 0.0                         # the root lies at larger x
+        lo_ = np.where(right, x, lo_)
+        hi_ = np.where(right, hi_, x)
+        at_lo = x <= l0
+        at_hi = x >= h0
+        conv = np.abs(f) <= FTOL
+        stop = conv | (at_lo & ~right) | (at_hi & right) | ((hi_ - lo_) <= 1e-13) | ~np.isfinite(f)
+        t_lo |= at_lo
+        t_hi |= at_hi
+        if xp is None:
+            xn = x - f * inv_slope
+            bisect = np.zeros(x.size, dtype=bool)
+        else:
+            with np.errstate(divide="ignore", invalid="ignore"):
+                xn = x - f * (x - xp) / (f - fp)
+            bisect = ~(np.abs(f) <= 0.5 * np.abs(fp))     # |f| did not halve (or nan)
+        below = ~(xn > lo_)
+        above = ~(xn < hi_)
+        go_lo = below & ~t_lo
+        go_hi = above & ~t_hi
+        bisect = (bisect | below | above) & ~go_lo & ~go_hi
+        xn = np.where(bisect, 0.5 * (lo_ + hi_), xn)
+        xn = np.where(go_lo, l0, np.where(go_hi, h0, xn))
+        if stop.any():
+            r = rows[stop]
+            # converged rows get one more (unverified) secant step from their verified point:
+            # |step| <= ~1e-8, and it takes the error from ~1e-8 to round-off in the usual case
+            polish = np.where(conv & ~bisect & (xp is not None) & (xn > lo_) & (xn < hi_), xn, x)
+            x_out[r] = polish[stop]
+            f_out[r] = f[stop]
+            ok_out[r] = (conv[stop] | ((hi_ - lo_)[stop] <= 1e-13)) & np.isfinite(f[stop])
+            keep = ~stop
+            rows = rows[keep]
+            fun.keep(keep)
+            x, xn, f = x[keep], xn[keep], f[keep]
+            l0, h0, lo_, hi_, t_lo, t_hi = l0[keep], h0[keep], lo_[keep], hi_[keep], t_lo[keep], t_hi[keep]
+        xp, fp, x = x, f, xn
+    ok = ok_out & (np.abs(f_out) <= ACCEPT)
+    return x_out, ok
+
+
+def _ms_residual(x, inv_h, ln_t, k_t, c_t, f_r, ab_b, e_hi, e_lo, c_a, c_b) -> np.ndarray:
+    """ln Z0(w = e^x) - ln Z_target for the static microstrip (same algebra as
+    :meth:`MicrostripKernel.ln_z0`, on compacted row constants)."""
+    u = np.exp(x) * inv_h
+    d1 = k_t * np.log1p(c_t * np.tanh(np.sqrt(6.517 * u)) ** 2)
+    z1 = MicrostripKernel._z01(u + d1)
+    ur = u + d1 * f_r
+    zr = MicrostripKernel._z01(ur)
+    u2 = ur * ur
+    u4 = u2 * u2
+    y = ur * (1.0 / 18.1)
+    a = (1.0 + np.log((u4 + u2 * (1.0 / 2704.0)) / (u4 + 0.432)) * (1.0 / 49.0)
+         + np.log1p(y * y * y) * (1.0 / 18.7))
+    e = e_hi + e_lo * np.exp(a * ab_b * np.log1p(10.0 / ur))
+    ratio = z1 / zr
+    emb = e * ratio * ratio * c_a + c_b
+    return np.log(_ETA_2PI * z1 * z1 / emb) * 0.5 - ln_t
 
 
 def _broadcast_all(geom: LineGeometry, *arrays) -> tuple[LineGeometry, list[np.ndarray]]:
@@ -195,24 +264,29 @@ def _solve(kind: str, variable: str, target_ohm, geom: LineGeometry, vmin, vmax,
             valid = np.isfinite(ln_t) & (lo <= hi)
             if static_ms:
                 kern = MicrostripKernel(gc.height_m, gc.thickness_m, gc.er, gc.cover_m, gc.cover_er)
-                inv_h = 1.0 / gc.height_m
-
-                def fun(rows, x, kern=kern, inv_h=inv_h, ln_t=ln_t):
-                    if rows is None:
-                        return kern.ln_z0(np.exp(x) * inv_h) - ln_t
-                    return kern.ln_z0(np.exp(x) * inv_h[rows], rows) - ln_t[rows]
-
+                consts = dict(inv_h=1.0 / gc.height_m, ln_t=ln_t, k_t=kern.k_t, c_t=kern.c_t, f_r=kern.f_r,
+                              ab_b=kern.ab_b, e_hi=kern.e_hi, e_lo=kern.e_lo, c_a=kern.c_a, c_b=kern.c_b)
                 x0, slope = _microstrip_start(np.exp(ln_t), gc, kern)
-                x, okc = _secant(fun, lo, hi, x0, slope, -1.0, valid)
+                x, okc, x_last, slope_last = _fast_secant(lambda xx: _ms_residual(xx, **consts), lo, hi, x0, slope)
+                # rows the fixed fast pass did not settle: the safeguarded solver, warm-started
+                rest = valid & ~okc
+                if rest.any():
+                    idx = np.flatnonzero(rest)
+                    fun = _Rows({k: v[idx] for k, v in consts.items()}, _ms_residual)
+                    xr, okr = _secant(fun, lo[idx], hi[idx], x_last[idx], slope_last[idx], -1.0,
+                                      np.ones(idx.size, dtype=bool))
+                    x[idx] = xr
+                    okc[idx] = okr
+                okc &= valid
             else:
-                def fun(rows, x, gc=gc, ln_t=ln_t, fc=fc):
-                    rows = np.arange(ln_t.size) if rows is None else rows
+                def resid(x, rows, gc=gc, ln_t=ln_t, fc=fc):
                     sub = gc.take(rows).with_(**{variable: np.exp(x)})
                     return np.log(target_impedance(kind, sub, None if fc is None else fc[rows])) - ln_t[rows]
 
                 rows = np.arange(ln_t.size)
-                f_lo = fun(rows, lo)
-                f_hi = fun(rows, hi)
+                fun = _Rows(dict(rows=rows), resid)
+                f_lo = resid(lo, rows)
+                f_hi = resid(hi, rows)
                 sign = -1.0 if variable == "width_m" else 1.0
                 bracket = valid & np.isfinite(f_lo) & np.isfinite(f_hi) & (f_lo * f_hi <= 0.0)
                 slope = (f_hi - f_lo) / np.where(hi > lo, hi - lo, 1.0)
