@@ -117,6 +117,10 @@ class Space:
     blocks: dict[str, np.ndarray] = field(default_factory=dict)
 
     @property
+    def _col(self) -> dict[str, int]:
+        return {v.name: k for k, v in enumerate(self.variables)}
+
+    @property
     def n_layers(self) -> int:
         return 4 * self.n_cu + 1
 
@@ -163,51 +167,52 @@ class Space:
     # ------------------------------------------------------------------ decoding
     def slots(self, x: np.ndarray) -> dict[str, np.ndarray]:
         """Per-slot option indices of a batch of variable vectors (applies the symmetry)."""
-        x = np.asarray(x, dtype=np.int64)
-        n = x.shape[0]
+        xt = np.ascontiguousarray(np.asarray(x, dtype=np.int64).T)    # one contiguous row per variable
+        n = xt.shape[1]
         N = self.n_cu
-        col = {v.name: k for k, v in enumerate(self.variables)}
+        col = self._col
+        zero = np.zeros(n, np.int64)
 
-        def get(name: str, default: int = 0) -> np.ndarray:
+        def get(name: str) -> np.ndarray:
             k = col.get(name)
-            return x[:, k] if k is not None else np.full(n, default, np.int64)
+            return xt[k] if k is not None else zero
 
         sym = self.study.stack.symmetric
         cu = np.empty((n, N), np.int64)
         film = np.empty((n, max(N - 1, 0)), np.int64)
         adh = np.empty_like(film)
         place = np.empty_like(film)
+        place_tab = np.asarray(self.place_opts, np.int64)
         for i in range(N):
-            src = min(i, N - 1 - i) if sym else i
-            cu[:, i] = get(f"copper[{src}]")
+            cu[:, i] = get(f"copper[{min(i, N - 1 - i) if sym else i}]")
         for g in range(N - 1):
             src = min(g, N - 2 - g) if sym else g
             film[:, g] = get(f"film[{src}]")
             adh[:, g] = get(f"adhesive[{src}]")
-            p = np.asarray(self.place_opts)[get(f"placement[{src}]")]
+            p = np.take(place_tab, get(f"placement[{src}]"))
             if sym and g != src:
                 p = np.where(p == 2, 2, 1 - p)     # mirrored gap: below <-> above
             if sym and g == N - 2 - g:
                 p = np.full(n, 2, np.int64)        # the middle gap of a symmetric stack
             place[:, g] = p
         cover_top = get("cover[top]")
-        cover_bot = get("cover[top]") if sym else get("cover[bottom]")
-        signal = np.asarray(self.sig_opts, np.int64)[get("signal_layer")]
+        cover_bot = cover_top if sym else get("cover[bottom]")
+        signal = np.take(np.asarray(self.sig_opts, np.int64), get("signal_layer"))
         gap_opt = get("line_gap")
-        cov_idx = np.asarray(self.cov_opts)
+        cov_tab = np.asarray(self.cov_opts, float)
         cov_val = np.empty((n, N))
+        scov = self.study.stack.signal_coverage
         if sym:
             for i in range(N):
-                cov_val[:, i] = cov_idx[get(f"coverage[{min(i, N - 1 - i)}]")]
+                cov_val[:, i] = np.take(cov_tab, get(f"coverage[{min(i, N - 1 - i)}]"))
         else:
+            # ground j counts the copper layers other than the signal, top to bottom
+            C = [np.take(cov_tab, get(f"coverage[{j}]")) for j in range(N - 1)]
             for i in range(N):
-                # ground j counts the copper layers other than the signal, top to bottom
-                j_here = np.where(i < signal, i, i - 1)
-                vals = np.full(n, self.cov_opts[0])
-                for j in range(N - 1):
-                    vals = np.where(j_here == j, cov_idx[get(f"coverage[{j}]")], vals)
-                cov_val[:, i] = vals
-        cov_val[np.arange(n), signal] = self.study.stack.signal_coverage
+                above = C[min(i, N - 2)]           # i < signal: ground j = i
+                below = C[max(i - 1, 0)]           # i > signal: ground j = i - 1
+                cov_val[:, i] = np.where(i < signal, above, below)
+        cov_val = np.where(np.arange(N)[None, :] == signal[:, None], scov, cov_val)
         return dict(cu=cu, film=film, adh=adh, place=place, cover_top=cover_top, cover_bot=cover_bot,
                     signal=signal, gap_opt=gap_opt, cov_val=cov_val)
 
@@ -311,36 +316,35 @@ class Space:
         """
         s = self.slots(x) if slots is None else slots
         b = self.blocks
-        N = self.n_cu
+        N, L = self.n_cu, self.n_layers
         n = s["signal"].shape[0]
-        t_parts, e_parts = [b["cov_t"][s["cover_top"]]], [b["cov_E"][s["cover_top"]]]
-        fill_up = (b["cov_fE"][s["cover_top"]], b["cov_fadh"][s["cover_top"]], b["cov_fok"][s["cover_top"]])
-        gcode = []
+        t = np.empty((n, L))
+        e = np.empty((n, L))
+        ct, cb = s["cover_top"], s["cover_bot"]
+        take = np.take
+        t[:, 0:2] = take(b["cov_t"], ct, axis=0)      # np.take: much faster than row fancy-indexing
+        e[:, 0:2] = take(b["cov_E"], ct, axis=0)
+        t[:, L - 2:] = take(b["cov_t_rev"], cb, axis=0)
+        e[:, L - 2:] = take(b["cov_E_rev"], cb, axis=0)
+        n_adh = len(self.adh_opts)
+        gcode = [(s["film"][:, g] * n_adh + s["adh"][:, g]) * 3 + s["place"][:, g] for g in range(N - 1)]
         for g in range(N - 1):
-            gcode.append((s["film"][:, g] * len(self.adh_opts) + s["adh"][:, g]) * 3 + s["place"][:, g])
-        cu_E = []
+            c = 3 + 4 * g
+            t[:, c:c + 3] = take(b["gap_t"], gcode[g], axis=0)
+            e[:, c:c + 3] = take(b["gap_E"], gcode[g], axis=0)
+        # copper: Voigt mix with the fill picked by the neighbours (one 2-D table gather per layer)
+        n_cov = len(self.cover_opts)
+        fill_flat = b["fill"].ravel()
+        n_col = b["fill"].shape[1]
         for i in range(N):
-            t_parts.append(b["cu_t"][s["cu"][:, i]][:, None])
-            if i < N - 1:
-                gc = gcode[i]
-                dn = (b["gap_upE"][gc], b["gap_upadh"][gc], np.ones(n, bool))
-            else:
-                cb = s["cover_bot"]
-                dn = (b["cov_fE"][cb], b["cov_fadh"][cb], b["cov_fok"][cb])
-            (ue, ua, uok), (de, da, dok) = fill_up, dn
-            fill = np.where(ua & uok, ue, np.where(da & dok, de, np.where(uok, ue, np.where(dok, de, 0.0))))
+            c = 2 + 4 * i
+            up = ct if i == 0 else n_cov + gcode[i - 1]
+            dn = cb if i == N - 1 else n_cov + gcode[i]
+            fill = take(fill_flat, up * n_col + dn)
             cov = s["cov_val"][:, i]
-            ecu = cov * b["cu_E"][s["cu"][:, i]] + (1.0 - cov) * fill
-            e_parts.append(ecu[:, None])
-            cu_E.append(ecu)
-            if i < N - 1:
-                t_parts.append(b["gap_t"][gc])
-                e_parts.append(b["gap_E"][gc])
-                fill_up = (b["gap_dnE"][gc], b["gap_dnadh"][gc], np.ones(n, bool))
-        t_parts.append(b["cov_t"][s["cover_bot"]][:, ::-1])
-        e_parts.append(b["cov_E"][s["cover_bot"]][:, ::-1])
-        t = np.concatenate(t_parts, axis=1)
-        e = np.concatenate(e_parts, axis=1)
+            k = s["cu"][:, i]
+            t[:, c] = take(b["cu_t"], k)
+            e[:, c] = cov * (take(b["cu_E"], k) - fill) + fill
         leaf = None
         if self.study.bend.region == "unbonded" and N > 1:
             is_air, leaf = self._leaves(s["signal"])
@@ -539,7 +543,22 @@ def _blocks(sp: Space) -> dict[str, np.ndarray]:
     gap_t = np.stack([t_up, gtf, t_dn], axis=1)
     Ea, Ef = E_of(gma), E_of(gmf)
     gap_E = np.stack([np.where(t_up > 0, Ea, 0.0), Ef, np.where(t_dn > 0, Ea, 0.0)], axis=1)
+    # fill of a copper layer from its two neighbours: rows = neighbour above (cover options, then gap
+    # codes seen from below), columns = neighbour below (cover options, then gap codes seen from
+    # above). Rule of resolve_fills: adjacent adhesive above, else below, else dielectric above,
+    # else below, else air (0).
+    ue = np.concatenate([cov_fE, np.where(t_dn > 0, Ea, Ef)])
+    ua = np.concatenate([cov_fadh, (t_dn > 0) & adh_of(gma)])
+    uok = np.concatenate([cov_fok, np.ones(len(gtf), bool)])
+    de = np.concatenate([cov_fE, np.where(t_up > 0, Ea, Ef)])
+    da = np.concatenate([cov_fadh, (t_up > 0) & adh_of(gma)])
+    dok = uok.copy()
+    UE, DE = ue[:, None], de[None, :]
+    UA, DA, UOK, DOK = (ua & uok)[:, None], (da & dok)[None, :], uok[:, None], dok[None, :]
+    fill = np.where(UA, UE, np.where(DA, DE, np.where(UOK, UE, np.where(DOK, DE, 0.0))))
     return {
+        "fill": np.ascontiguousarray(np.broadcast_to(fill, (len(ue), len(de)))),
+        "cov_t_rev": cov_t[:, ::-1].copy(), "cov_E_rev": cov_E[:, ::-1].copy(),
         "cov_t": cov_t, "cov_E": cov_E, "cov_fE": cov_fE, "cov_fadh": cov_fadh, "cov_fok": cov_fok,
         "cu_t": a["cu_t"], "cu_E": a["cu_E"] / ((1.0 - a["cu_nu"] ** 2) if ps else 1.0),
         "gap_t": gap_t, "gap_E": gap_E,

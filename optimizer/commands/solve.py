@@ -107,7 +107,7 @@ def run(args: argparse.Namespace) -> int:
         from strainline.optimizer.verify import verify_front
 
         prog = Progress("verify", quiet=args.quiet)
-        front = verify_front(front, workers=max(1, args.workers), dask_address=args.dask, progress=prog)
+        front = verify_front(front, workers=max(1, args.workers), dask_address=args.dask, progress=prog.update)
         prog.close()
     paths = write_outputs(front, out_dir)
     if not args.quiet:
@@ -118,7 +118,10 @@ def run(args: argparse.Namespace) -> int:
               f"{s['feasible']:,} feasible)")
         if not front["candidates"]:
             print(s.get("infeasible", {}).get("message", "no feasible stackup"))
-    print("wrote " + ", ".join(str(p) for p in paths))
+    names = [str(Path(p).relative_to(out_dir)) if Path(p).is_relative_to(out_dir) else str(p) for p in paths]
+    shown = [n for n in names if "/" not in n and "\\" not in n]
+    rest = len(names) - len(shown)
+    print(f"wrote {out_dir}/: " + ", ".join(shown) + (f" and {rest} more files" if rest else ""))
     print(f"caution: {CAUTION}")
     sys.stdout.flush()
     return 0
