@@ -1,0 +1,171 @@
+"""Search quality and speed (plain script; prints numbers, asserts nothing).
+
+1. Where the exact front is known (a study space enumerated exhaustively): NSGA-II with its archive
+   at 20,000 evaluations, 5 seeds -- hypervolume as a share of the exact front's, the additive
+   epsilon indicator (Zitzler et al. 2003) and the share of exact front points found -- beside
+   random search of the same budget.
+2. pymoo's own loop speed (evaluations/s with a trivial evaluator) against the enumeration speed,
+   which sets the ``auto`` threshold.
+3. A space of 10^10 or more (6 copper layers, free order): archive hypervolume against
+   evaluations until the run stops on stagnation, and the wall time.
+4. The README demo study end to end (``strainline solve studies/handheld-scanner-hinge.yaml``).
+
+Run:  python benchmarks/bench_search.py [--quick]
+"""
+from __future__ import annotations
+
+import os
+import subprocess
+import sys
+import tempfile
+import time
+from pathlib import Path
+
+import numpy as np
+
+from strainline.optimizer.catalog import load_catalog
+from strainline.optimizer.problem import build_problem
+from strainline.optimizer.search import (
+    additive_epsilon, evolutionary, exhaustive, hypervolume, random_search,
+)
+from strainline.optimizer.space import build_space
+from strainline.optimizer.study import validate_study
+
+ROOT = Path(__file__).resolve().parents[1]
+CAT = load_catalog()
+
+EXACT = {
+    "name": "bench-exact",
+    "line": {"type": "microstrip", "target_ohm": 50, "width_range_um": [50, 500], "frequency_ghz": 2.4},
+    "bend": {"inner_radius_mm": 8, "use": "dynamic", "cycles": 10000},
+    "stack": {"copper_layers": 2, "copper_weights": ["1/4oz", "1/3oz", "1/2oz"],
+              "copper_types": ["rolled-annealed", "high-ductility-ed"],
+              "dielectric": ["polyimide-film", "adhesiveless-polyimide-core", "lcp-film"],
+              "adhesive": ["none", "acrylic-adhesive"], "adhesive_thickness_um": [15, 25],
+              "coverlay": ["polyimide-coverlay-acrylic", "none"], "ground_coverage": [1.0, 0.5]},
+    "limits": {"total_thickness_um": 250},
+    "objectives": ["signal_strain", "thickness", "loss"],
+}
+
+BIG = {
+    "name": "bench-6cu",
+    "line": {"type": "stripline", "target_ohm": 50, "width_range_um": [50, 400], "frequency_ghz": 2.4},
+    "bend": {"inner_radius_mm": 25, "use": "dynamic", "cycles": 2000},
+    "stack": {"copper_layers": 6, "signal_layer": "auto", "order": "free",
+              "copper_weights": ["1/4oz", "1/3oz", "1/2oz"], "copper_types": ["rolled-annealed", "high-ductility-ed"],
+              "dielectric": ["polyimide-film", "adhesiveless-polyimide-core", "lcp-film"],
+              "adhesive": ["none", "acrylic-adhesive"], "adhesive_thickness_um": [15, 25],
+              "coverlay": ["polyimide-coverlay-acrylic"], "ground_coverage": [1.0, 0.5]},
+    "limits": {"total_thickness_um": 600},
+    "objectives": ["signal_strain", "thickness", "loss"],
+}
+
+
+def problem_of(data):
+    study = validate_study(data, CAT)
+    sp = build_space(study, CAT)
+    return build_problem(sp, CAT)
+
+
+def evaluator(pb, prune=False):
+    def ev(x):
+        e = pb.evaluate(x, prune=prune)
+        return e.F, e.G
+    return ev
+
+
+def part1(seeds=(1, 2, 3, 4, 5), budget=20000) -> None:
+    pb = problem_of(EXACT)
+    sp = pb.space
+    t0 = time.perf_counter()
+    ex = exhaustive(evaluator(pb, prune=True), sp.sizes, pb.n_obj)
+    t_ex = time.perf_counter() - t0
+    R = ex.archive.F
+    ideal, nadir = R.min(axis=0), R.max(axis=0)
+    hv_exact = hypervolume(R, ideal, nadir)
+    print(f"[1] exact front: space {sp.size:,}, {ex.archive.feasible:,} feasible, {len(R)} front points, "
+          f"exhaustive {t_ex:.1f} s, hypervolume {hv_exact:.5f} (normalized, reference 1.1)")
+    exact_set = {tuple(r) for r in R}
+    rows = []
+    for seed in seeds:
+        t0 = time.perf_counter()
+        evo = evolutionary(evaluator(pb), sp.sizes, pb.n_obj, pb.n_con, budget=budget, seed=seed, pop_size=100)
+        dt = time.perf_counter() - t0
+        rnd = random_search(evaluator(pb), sp.sizes, pb.n_obj, budget=budget, seed=seed)
+        A = evo.archive.F
+        rows.append((
+            seed, evo.evaluated, dt, hypervolume(A, ideal, nadir) / hv_exact, additive_epsilon(A, R, ideal, nadir),
+            len(exact_set & {tuple(r) for r in A}) / len(R), hypervolume(rnd.archive.F, ideal, nadir) / hv_exact,
+            additive_epsilon(rnd.archive.F, R, ideal, nadir), evo.stopped))
+    print("    seed  evals  seconds  HV/HV_exact  eps+   exact pts found | random HV/HV_exact  eps+   stop")
+    for r in rows:
+        print(f"    {r[0]:4d} {r[1]:6d} {r[2]:8.1f} {r[3]:11.5f} {r[4]:7.4f} {r[5]:10.1%}     | {r[6]:12.5f} {r[7]:8.4f}  {r[8]}")
+    med = np.median(np.array([r[1:8] for r in rows], dtype=float), axis=0)
+    print(f"    median: evaluations {med[0]:.0f}, HV share {med[2]:.5f}, eps+ {med[3]:.4f}, "
+          f"exact points found {med[4]:.1%}; random: HV share {med[5]:.5f}, eps+ {med[6]:.4f}")
+
+
+def part2() -> None:
+    sizes = np.full(6, 10)
+    W = np.random.default_rng(0).random((6, 10, 3))
+
+    def cheap(x):
+        return W[np.arange(6)[None, :], x, :].sum(axis=1), np.zeros((len(x), 0))
+
+    t0 = time.perf_counter()
+    r = evolutionary(cheap, sizes, 3, 0, budget=20000, seed=1, pop_size=100, stagnation=10**9)
+    dt = time.perf_counter() - t0
+    pb = problem_of(EXACT)
+    x = pb.space.index_to_x(np.arange(min(pb.space.size, 400000)))
+    t1 = time.perf_counter()
+    for s in range(0, len(x), 65536):
+        pb.evaluate(x[s:s + 65536], prune=True)
+    dt2 = time.perf_counter() - t1
+    print(f"[2] pymoo NSGA-II loop with a trivial evaluator: {r.evaluated / dt:,.0f} evaluations/s; "
+          f"enumeration of the study problem: {len(x) / dt2:,.0f} candidates/s (wall clock); "
+          f"ratio {len(x) / dt2 / (r.evaluated / dt):.0f}x")
+
+
+def part3(budget=200000) -> None:
+    pb = problem_of(BIG)
+    sp = pb.space
+    print(f"[3] 6-copper free-order space: {sp.size:.3e} candidates ({len(sp.variables)} variables), "
+          f"line table {pb.table.n_rows:,} rows")
+    t0 = time.perf_counter()
+    evo = evolutionary(evaluator(pb), sp.sizes, pb.n_obj, pb.n_con, budget=budget, seed=1, pop_size=200,
+                       stagnation=40)
+    dt = time.perf_counter() - t0
+    A = evo.archive.F
+    if not len(A):
+        print("    no feasible point found")
+        return
+    ideal, nadir = A.min(axis=0), A.max(axis=0)
+    # replay the archive growth: hypervolume of the archive after k evaluations (normalized by the final front)
+    evo2 = evolutionary(evaluator(pb), sp.sizes, pb.n_obj, pb.n_con, budget=budget, seed=1, pop_size=200,
+                        stagnation=40, hv_bounds=(ideal, nadir))
+    hist = evo2.history
+    marks = sorted({int(len(hist) * q) for q in (0.02, 0.05, 0.1, 0.2, 0.3, 0.5, 0.7, 0.9)} | {len(hist) - 1})
+    print(f"    stopped after {evo.evaluated:,} evaluations ({evo.stopped}), {dt:.1f} s wall, "
+          f"{evo.archive.feasible:,} feasible seen, {len(A)} front points")
+    print("    evaluations -> archive hypervolume (normalized by the final front)")
+    for k in marks:
+        if 0 <= k < len(hist):
+            print(f"    {hist[k][0]:8,d}  {hist[k][1]:.5f}")
+
+
+def part4() -> None:
+    with tempfile.TemporaryDirectory() as tmp:
+        t0 = time.perf_counter()
+        subprocess.run([sys.executable, "-m", "strainline.optimizer", "solve",
+                        str(ROOT / "studies" / "handheld-scanner-hinge.yaml"), "--out", tmp, "--quiet"],
+                       check=True, capture_output=True, env={**os.environ})
+        dt = time.perf_counter() - t0
+    print(f"[4] README demo (strainline solve studies/handheld-scanner-hinge.yaml) end to end: {dt:.1f} s wall")
+
+
+if __name__ == "__main__":
+    quick = "--quick" in sys.argv
+    part4()
+    part2()
+    part1(seeds=(1, 2) if quick else (1, 2, 3, 4, 5))
+    part3(budget=40000 if quick else 200000)
