@@ -163,35 +163,47 @@ def _na(t, e, yb, yt):
     return np.where(s > 0, m / np.where(s > 0, s, 1.0), 0.5 * yt[:, 0])
 
 
+class _Segments:
+    """Contiguous runs of equal leaf ids along each row (a leaf is such a run), for segment sums."""
+
+    def __init__(self, leaf, n: int, L: int) -> None:
+        lf = np.broadcast_to(np.asarray(leaf), (n, L))
+        j = np.arange(L)
+        change = np.ones((n, L), dtype=bool)
+        change[:, 1:] = lf[:, 1:] != lf[:, :-1]
+        is_end = np.ones((n, L), dtype=bool)
+        is_end[:, :-1] = change[:, 1:]
+        start = np.maximum.accumulate(np.where(change, j, 0), axis=1)
+        end = np.minimum.accumulate(np.where(is_end, j, L - 1)[:, ::-1], axis=1)[:, ::-1]
+        base = (np.arange(n) * (L + 1))[:, None]
+        self.n, self.L = n, L
+        self.lo = base + start            # flat index of the cumulative sum before the run
+        self.hi = base + end + 1          # flat index of the cumulative sum at the run's end
+        flat = (np.arange(n) * L)[:, None]
+        self.first = flat + start         # flat (n, L) index of the run's first (top) layer
+        self.last = flat + end            # ... and of its last (bottom) layer
+
+    def sum(self, x) -> np.ndarray:
+        """Sum of x (n, L) over each layer's run, per layer (n, L)."""
+        cs = np.zeros((self.n, self.L + 1))
+        np.cumsum(x, axis=1, out=cs[:, 1:])
+        flat = cs.ravel()
+        return flat[self.hi] - flat[self.lo]
+
+
 def _leaf_axes(t, e, yb, yt, leaf):
-    """Per-layer (leaf NA, leaf bottom, leaf top), each (n, L). Leaves must be contiguous runs."""
+    """Per-layer (leaf NA, leaf bottom, leaf top): (n, 1) arrays without leaves, (n, L) with them."""
     n, L = t.shape
     if leaf is None:
         return _na(t, e, yb, yt)[:, None], np.zeros((n, 1)), yt[:, :1]
-    lf = np.broadcast_to(np.asarray(leaf, dtype=np.int64), (n, L))
-    if lf.size and (lf.min() < 0 or lf.max() >= L):
-        raise ValueError("leaf ids must lie in [0, L)")
-    idx = (np.arange(n, dtype=np.int64)[:, None] * L + lf).ravel()
-    size = n * L
-
-    def sums(x):
-        return np.bincount(idx, weights=np.broadcast_to(x, (n, L)).ravel(), minlength=size).reshape(n, L)
-
-    yc = 0.5 * (yb + yt)
-    s = sums(e * t)
-    m = sums(e * t * yc)
-    tk = sums(t)
-    g = sums(t * yc)
-    cnt = sums(np.ones((n, L)))
-    ybs = sums(yb)
-    geo = np.where(tk > 0, g / np.where(tk > 0, tk, 1.0), ybs / np.maximum(cnt, 1.0))
-    na = np.where(s > 0, m / np.where(s > 0, s, 1.0), geo)
-    bot, top = geo - 0.5 * tk, geo + 0.5 * tk
-
-    def gather(k):
-        return np.take_along_axis(k, lf, axis=1)
-
-    return gather(na), gather(bot), gather(top)
+    seg = _Segments(leaf, n, L)
+    ea = e * t
+    s = seg.sum(ea)
+    m = seg.sum(ea * (yb + yt)) * 0.5
+    bot = yb.ravel()[seg.last]
+    top = yt.ravel()[seg.first]
+    na = np.where(s > 0, m / np.where(s > 0, s, 1.0), 0.5 * (bot + top))
+    return na, bot, top
 
 
 def _bend_frame(r, ib, total):
@@ -231,7 +243,8 @@ def bend_strains(thickness_m, modulus_pa, inner_radius_m, inside_bottom=True, le
     inside_bottom : bool or array_like of bool, (n,)
         True when the bottom face is the inside of the bend.
     leaf : array_like of int, (n, L), optional
-        Bonded-leaf id of each layer (contiguous runs, ids in [0, L)). None: one bonded stack.
+        Bonded-leaf id of each layer; a leaf is a contiguous run of equal ids along the row. None:
+        one bonded stack.
         A leaf without stiffness (an air gap given its own id) gets its geometric mid-height as
         axis; its strains have no physical meaning.
 
@@ -400,16 +413,14 @@ def epp_bend_strains(thickness_m, modulus_pa, yielding_modulus_pa, yield_strain,
         s_e = ee.sum(axis=1, keepdims=True)
         m_e = ee_y.sum(axis=1, keepdims=True)
     else:
-        lf = np.broadcast_to(np.asarray(leaf, dtype=np.int64), (n, L))
-        idx = (np.arange(n, dtype=np.int64)[:, None] * L + lf).ravel()
+        seg = _Segments(leaf, n, L)
 
         def leaf_sum(x, cols=None):
             if cols is not None:
                 full = np.zeros((n, L))
                 full[:, cols] = x
                 x = full
-            k = np.bincount(idx, weights=x.ravel(), minlength=n * L).reshape(n, L)
-            return np.take_along_axis(k, lf, axis=1)
+            return seg.sum(x)
 
         s_e, m_e = leaf_sum(ee), leaf_sum(ee_y)
     for _ in range(iterations):
