@@ -227,3 +227,38 @@ def test_bad_signal_layer_and_options(tmp_path, run_cli):
     assert code == 2 and "'genetic'" in err
     code, _, err = run_cli("solve", tmp_path / "missing.yaml")
     assert code == 2 and "file not found" in err
+
+
+def test_reported_figures_match_the_bend_and_line_commands(solved, tmp_path, run_cli):
+    # Round trip through the other commands: the candidate's layers written as a stackup file and
+    # bent by `strainline bend`, its line geometry given to `strainline line`, give the same figures.
+    from strainline.optimizer.catalog import load_catalog
+
+    weights = {round(w.thickness_m / UM, 6): k for k, w in load_catalog().weights.items()}
+    front, _ = solved
+    for c in front["candidates"][:3]:
+        layers = []
+        for lay in c["layers"]:
+            if lay["kind"] == "copper":
+                layers.append({"name": lay["name"], "kind": "copper", "copper": lay["material"],
+                               "weight": weights[round(lay["thickness_um"], 6)], "coverage": lay["coverage"]})
+            else:
+                layers.append({"name": lay["name"], "material": lay["material"], "thickness_um": lay["thickness_um"]})
+        path = tmp_path / f"{c['id']}.yaml"
+        path.write_text(yaml.safe_dump({"name": c["id"], "layers": layers}, sort_keys=False))
+        code, out, err = run_cli("bend", path, "--inner-radius-mm", "6", "--use", "dynamic", "--json")
+        assert code == 0, err
+        rep = json.loads(out)
+        assert rep["neutral_axis_um"] == pytest.approx(c["bend"]["neutral_axis_um"], rel=1e-12)
+        assert rep["peak_copper_strain_pct"] == pytest.approx(c["bend"]["peak_copper_strain_pct"], rel=1e-9)
+        np.testing.assert_allclose([x["strain_top_pct"] for x in rep["layers"]],
+                                   [x["strain_top_pct"] for x in c["layers"]], rtol=1e-12)
+        assert min(rep["cycles_to_failure"].values()) == pytest.approx(c["bend"]["cycles_to_failure"], rel=1e-9)
+        ln, g = c["line"], c["line"]["geometry"]
+        args = ["line", "microstrip", "--width-um", repr(ln["width_um"]), "--height-um", repr(g["height_um"]),
+                "--thickness-um", repr(g["thickness_um"]), "--er", repr(g["er"]), "--json"]
+        if g["cover_um"]:
+            args += ["--cover-um", repr(g["cover_um"]), "--cover-er", repr(g["cover_er"])]
+        code, out, err = run_cli(*args)
+        assert code == 0, err
+        assert json.loads(out)["z0_ohm"] == pytest.approx(ln["z0_ohm"], rel=1e-6)   # the command prints 6 decimals
