@@ -334,9 +334,12 @@ def cautions(front: Mapping[str, Any]) -> list[str]:
     out = [CAUTION]
     extra = front.get("caution") or front.get("cautions")
     items = extra if isinstance(extra, list) else [extra] if extra else []
+    ours = set(re.findall(r"[a-z0-9-]+", CAUTION.lower()))
     for item in items:
         text = str(item).strip()
-        if text and text not in out:
+        words = re.findall(r"[a-z0-9-]+", text.lower())
+        new = [w for w in words if w not in ours]
+        if text and text not in out and len(new) > 0.2 * len(words):   # says more than ours
             out.append(text)
     return out
 
@@ -405,6 +408,7 @@ def _page_data(front: Mapping[str, Any], catalog: Any | None) -> dict[str, Any]:
             "findings": findings_of(c),
         })
     objectives = [k for k in cands[0]["objectives"] if all(_num(c["objectives"].get(k)) for c in cands)] if cands else []
+    true_objectives = list(objectives)
     objectives += [k for k in ("peak_strain_pct", "total_thickness_um") if k not in objectives]
     dominated = front.get("dominated") or front.get("dominated_points") or []
     dom = []
@@ -417,6 +421,7 @@ def _page_data(front: Mapping[str, Any], catalog: Any | None) -> dict[str, Any]:
         "study": study_name(front),
         "candidates": view,
         "objectives": objectives,
+        "true_objectives": true_objectives,
         "dominated": dom,
         "decisions": decision_table(cands),
         "strain_limit_pct": strain_limit_pct(front),
@@ -623,7 +628,7 @@ other objectives. Click a point or a table row to inspect a candidate.</div></he
 <div class="controls">
   <span id="pair-buttons"></span>
   <label>colour by <select id="colour-by"></select></label>
-  <span class="note">faint grey: dominated feasible points kept by the run</span>
+  <span class="note" id="front-note"></span>
 </div>
 <div id="front" class="plot"></div>
 </section>
@@ -678,7 +683,14 @@ function fmt(v, d) {
 }
 function esc(s) { return String(s).replace(/[&<>"]/g, function (c) {
   return {'&': '&amp;', '<': '&lt;', '>': '&gt;', '"': '&quot;'}[c]; }); }
+var TO = D.true_objectives || D.objectives;
 var state = {x: 'total_thickness_um', y: 'peak_strain_pct', colour: null, selected: 0};
+if (TO.indexOf('peak_strain_pct') < 0 && TO.length >= 2) {
+  // peak strain is not optimised in this study: open on a pair of its own objectives
+  var strainKey = TO.filter(function (k) { return /strain/.test(k); })[0];
+  if (strainKey && TO.indexOf('total_thickness_um') >= 0) { state.y = strainKey; state.x = 'total_thickness_um'; }
+  else { state.y = TO[0]; state.x = TO[1]; }
+}
 window.strainline = {data: D, state: state, select: select, renders: 0};
 
 // ----- colour quantities
@@ -715,7 +727,7 @@ function colourValues() {
 var pairs = [];
 var obj = D.objectives;
 for (var a = 0; a < obj.length; a++) for (var b = a + 1; b < obj.length; b++) pairs.push([obj[a], obj[b]]);
-pairs = pairs.map(function (p) { return p[0] === 'peak_strain_pct' ? [p[1], p[0]] : p; });
+pairs = pairs.map(function (p) { return (/strain/.test(p[0]) && !/strain/.test(p[1])) || p[0] === 'peak_strain_pct' ? [p[1], p[0]] : p; });
 var pb = document.getElementById('pair-buttons');
 if (obj.length >= 3) {
   pb.appendChild(document.createTextNode('objectives: '));
@@ -732,6 +744,10 @@ function markPairs() {
   Array.prototype.forEach.call(pb.querySelectorAll('button'), function (bt) {
     bt.classList.toggle('on', bt.dataset.x === state.x && bt.dataset.y === state.y);
   });
+  var off = [state.x, state.y].filter(function (k) { return TO.indexOf(k) < 0; });
+  document.getElementById('front-note').textContent = (D.dominated.length ?
+    'Faint grey: dominated feasible points kept by the run. ' : '') + (off.length ?
+    label(off[0]) + ' is not an objective of this study, so some front points look dominated in this view.' : '');
 }
 
 function hoverText(c) {

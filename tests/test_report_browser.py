@@ -4,14 +4,20 @@ Checks: the page loads from file:// with no console error and no request other t
 itself, the front renders one marker per candidate, clicking a marker redraws the cross-section and
 the strain profile with that candidate's figures (compared with front.json), the table sorts, and a
 sheet prints on at most two A4 pages. Screenshots land in pytest's tmp_path for a look after a failure.
+The same checks run on the hand-made fixture and on a real `strainline solve` run of a shipped study,
+whose sheets must also copy every front.json number exactly and which `strainline report` must
+rebuild byte for byte.
 """
 from __future__ import annotations
 
 import json
+import re
 import shutil
 import tempfile
+from html import unescape
 from pathlib import Path
 
+import pandas as pd
 import pytest
 
 from strainline.optimizer.cli import main
@@ -46,6 +52,7 @@ def built(request, tmp_path_factory):
     out = tmp_path_factory.mktemp(request.param)
     if request.param == "fixture":
         front = json.loads(FIXTURE.read_text(encoding="utf-8"))
+        shutil.copy(FIXTURE, out / "front.json")
         write_all(front, out)
     else:
         assert main(["solve", str(SOLVED_STUDY), "--out", str(out), "--budget", "500", "--quiet"]) == 0
@@ -82,11 +89,16 @@ def test_report_loads_offline_and_selecting_updates_plots(browser_ctx, built, tm
         assert n_points == n
         # click the marker of a candidate that is not selected now
         start = page.evaluate("window.strainline.state.selected")
-        k = (start + 2) % n
-        box = page.evaluate(
-            f"(() => {{ const r = document.querySelectorAll('#front .scatterlayer .trace')[{idx}]"
-            f".querySelectorAll('.point')[{k}].getBoundingClientRect(); return [r.x + r.width / 2, r.y + r.height / 2]; }})()")
-        page.mouse.click(box[0], box[1])
+        centres = page.evaluate(
+            f"[...document.querySelectorAll('#front .scatterlayer .trace')[{idx}].querySelectorAll('.point')]"
+            ".map(p => { const r = p.getBoundingClientRect(); return [r.x + r.width / 2, r.y + r.height / 2]; })")
+        # the marker standing furthest from every other one (points may coincide in a 2-D view)
+        def clearance(i):
+            return min(((centres[i][0] - c[0]) ** 2 + (centres[i][1] - c[1]) ** 2) ** 0.5
+                       for j, c in enumerate(centres) if j != i)
+        k = max((i for i in range(n) if i != start), key=clearance)
+        assert clearance(k) > 12
+        page.mouse.click(*centres[k])
         page.wait_for_function(f"window.strainline.state.selected === {k}", timeout=10000)
         cand = front["candidates"][k]
         assert cand["id"] in page.evaluate("document.getElementById('section').layout.title.text")
@@ -130,11 +142,12 @@ def test_report_loads_offline_and_selecting_updates_plots(browser_ctx, built, tm
         assert thick[first] == max(thick)
         page.wait_for_function(f"window.strainline.state.selected === {first}", timeout=10000)
         # objective-pair toggle (three or more objectives here) changes the front's axes
-        xt0 = page.evaluate("document.getElementById('front').layout.xaxis.title.text")
+        titles = "['xaxis', 'yaxis'].map(a => document.getElementById('front').layout[a].title.text)"
+        before = page.evaluate(titles)
         page.click("#pair-buttons button:not(.on)")
-        xt1 = page.evaluate("document.getElementById('front').layout.xaxis.title.text")
-        yt1 = page.evaluate("document.getElementById('front').layout.yaxis.title.text")
-        assert (xt1, yt1) != (xt0, "peak copper strain (%)")
+        after = page.evaluate(titles)
+        assert after != before
+        assert page.locator("#pair-buttons button.on").count() == 1
         # parallel coordinates drawn
         assert page.evaluate("document.querySelectorAll('#parcoords .y-axis').length") >= 2
         # cautions in plain view
@@ -165,3 +178,48 @@ def test_sheet_loads_and_prints_on_two_pages_at_most(browser_ctx, built, tmp_pat
     assert 1 <= pages <= 2, pages
     assert errors == []
     assert all(u.startswith("file://") for u in requests)
+
+
+def _resolve(cand, key):
+    node = cand
+    for part in key.split("."):
+        m = re.fullmatch(r"(\w+)\[(\d+)\]", part)
+        node = node[m.group(1)][int(m.group(2))] if m else node[part]
+    return node
+
+
+def test_sheets_copy_front_json_numbers_exactly(built):
+    """Every keyed CSV value and every keyed HTML cell of every sheet equals front.json's field."""
+    out, front = built
+    checked = 0
+    for cand in front["candidates"]:
+        df = pd.read_csv(out / "handoff" / f"{cand['id']}.csv", dtype=str, keep_default_na=False)
+        html = (out / "handoff" / f"{cand['id']}.html").read_text(encoding="utf-8")
+        pairs = list(zip(df.loc[df["key"] != "", "key"], df.loc[df["key"] != "", "value"]))
+        pairs += [(k, unescape(v)) for k, v in re.findall(r'data-key="([^"]+)" data-value="([^"]*)"', html)]
+        for key, text in pairs:
+            want = _resolve(cand, key)
+            if isinstance(want, bool):
+                assert text == ("true" if want else "false"), (cand["id"], key)
+            elif isinstance(want, (int, float)):
+                assert float(text) == float(want), (cand["id"], key, text, want)
+            else:
+                assert text == str(want), (cand["id"], key, text, want)
+            checked += 1
+        for key in ("line.width_um", "bend.inner_radius_mm"):
+            assert key in dict(pairs)
+    assert checked > 40 * len(front["candidates"])
+
+
+def test_report_command_rebuilds_the_same_files(built, tmp_path):
+    """`strainline report` on a copy of the folder reproduces report.html and every sheet byte for byte."""
+    out, front = built
+    copy = tmp_path / "copy"
+    copy.mkdir()
+    shutil.copy(out / "front.json", copy / "front.json")
+    assert main(["report", str(copy), "--quiet"]) == 0
+    assert (copy / "report.html").read_bytes() == (out / "report.html").read_bytes()
+    names = sorted(p.name for p in (out / "handoff").iterdir())
+    assert names == sorted(p.name for p in (copy / "handoff").iterdir())
+    for name in names:
+        assert (copy / "handoff" / name).read_bytes() == (out / "handoff" / name).read_bytes(), name
