@@ -82,7 +82,8 @@ def study_target(front: Mapping[str, Any]) -> tuple[float, float, float]:
 
     Accepts the study's ``line`` block as the study file states it (``target_ohm``,
     ``width_range_um: [min, max]``) or with ``width_min_um`` / ``width_max_um``. Missing values are
-    ``nan`` (then the candidate's own closed-form impedance is the target, and the range is open).
+    ``nan`` (then the candidate's ``line.target_ohm``, or failing that its closed-form impedance,
+    is the target, and the range is open).
     """
     line = _study_line(front.get("study", {}))
     target = _num(line.get("target_ohm"))
@@ -110,7 +111,9 @@ def build_tasks(front: Mapping[str, Any], target_ohm: float | None = None,
         kind = str(line.get("type", ""))
         pair = kind in PAIR_KINDS
         z_cf = _num(line.get("z_diff_ohm") if pair else line.get("z0_ohm"))
-        target = s_target if math.isfinite(s_target) else z_cf
+        target = s_target
+        if not math.isfinite(target):
+            target = _num(line.get("target_ohm"), z_cf)
         tasks.append({
             "index": i,
             "kind": kind,
@@ -123,7 +126,7 @@ def build_tasks(front: Mapping[str, Any], target_ohm: float | None = None,
             "er_top": _num(geo.get("er_top")),
             "cover_um": _num(geo.get("cover_um"), 0.0),
             "cover_er": _num(geo.get("cover_er"), 1.0),
-            "bottom_ground": bool(geo.get("bottom_ground", True)),
+            "bottom_ground": geo.get("bottom_ground") is not False,   # None/absent: backed
             "z_closed_form_ohm": z_cf,
             "target_ohm": target,
             "width_min_um": s_wmin,
@@ -305,6 +308,14 @@ def verify_front(front: dict, workers: int = 1, dask_address: str | None = None,
         raise InputError(f"{workers!r} is not a worker count (an integer >= 1)", "--workers")
     out = copy.deepcopy(front)
     tasks = build_tasks(out, target_ohm, width_range_um, cells_per_feature, tol_pct)
+    # candidates that share a line cross-section (same line in different stacks) are solved once
+    unique: dict[tuple, dict] = {}
+    members: dict[int, list[int]] = {}
+    for task in tasks:
+        key = tuple((k, repr(v)) for k, v in sorted(task.items()) if k != "index")
+        first = unique.setdefault(key, task)
+        members.setdefault(first["index"], []).append(task["index"])
+    tasks = list(unique.values())
     t0 = time.perf_counter()
     if dask_address:
         backend = "dask"
@@ -314,7 +325,9 @@ def verify_front(front: dict, workers: int = 1, dask_address: str | None = None,
         results = _run_local(tasks, workers, progress)
     checks: dict[int, dict] = {}
     for r in results:
-        checks[r.pop("index")] = r
+        first = r.pop("index")
+        for i in members[first]:
+            checks[i] = copy.deepcopy(r)
     seconds = time.perf_counter() - t0
     for i, cand in enumerate(out.get("candidates", [])):
         cand.setdefault("line", {})["field_check"] = checks[i]
@@ -325,6 +338,7 @@ def verify_front(front: dict, workers: int = 1, dask_address: str | None = None,
         "workers": (None if dask_address else workers),
         "seconds": round(seconds, 3),
         "candidates": len(fc),
+        "distinct_cross_sections": len(tasks),
         "failed": sum(1 for c in fc if c["error"]),
         "refined_out_of_range": sum(1 for c in fc if not c["error"] and not c["refined_width_in_range"]),
         "tolerance_pct": tol_pct,

@@ -152,3 +152,18 @@ def test_bad_worker_count_and_unreachable_scheduler_are_input_errors(microstrip_
     with pytest.raises(InputError, match="Dask scheduler"):
         verify_front({"candidates": [microstrip_front["candidates"][0]]},
                      dask_address="tcp://127.0.0.1:9", dask_timeout_s=1.0)
+
+
+def test_shared_cross_sections_are_solved_once(microstrip_front, serial_result):
+    front = copy.deepcopy(microstrip_front)
+    twin = copy.deepcopy(front["candidates"][0])
+    twin["id"] = 9   # the same line in another stack
+    front["candidates"] = [front["candidates"][0], twin]
+    res = verify_front(front, cells_per_feature=CPF)
+    assert res["field_verification"]["distinct_cross_sections"] == 1
+    a, b = (dict(c["line"]["field_check"]) for c in res["candidates"])
+    assert a == b
+    a.pop("seconds")
+    ref = dict(serial_result["candidates"][0]["line"]["field_check"])
+    ref.pop("seconds")
+    assert a == ref
