@@ -10,7 +10,7 @@
    evaluations until the run stops on stagnation, and the wall time.
 4. The README demo study end to end (``strainline solve studies/handheld-scanner-hinge.yaml``).
 
-Run:  python benchmarks/bench_search.py [--quick]
+Run:  python benchmarks/bench_search.py [--quick] [part numbers, e.g. 1 3]
 """
 from __future__ import annotations
 
@@ -165,7 +165,13 @@ def part4() -> None:
 
 if __name__ == "__main__":
     quick = "--quick" in sys.argv
-    part4()
-    part2()
-    part1(seeds=(1, 2) if quick else (1, 2, 3, 4, 5))
-    part3(budget=40000 if quick else 200000)
+    parts = [a for a in sys.argv[1:] if a.isdigit()] or ["4", "2", "1", "3"]
+    for part in parts:
+        if part == "4":
+            part4()
+        elif part == "2":
+            part2()
+        elif part == "1":
+            part1(seeds=(1, 2) if quick else (1, 2, 3, 4, 5))
+        elif part == "3":
+            part3(budget=40000 if quick else 200000)

@@ -281,7 +281,7 @@ def random_search(evaluate: Evaluator, sizes: np.ndarray, n_obj: int, budget: in
 
 
 def evolutionary(evaluate: Evaluator, sizes: np.ndarray, n_obj: int, n_con: int, budget: int, seed: int,
-                 pop_size: int = 100, stagnation: int = 30, progress: Any = None,
+                 pop_size: int = 100, stagnation: int = 60, progress: Any = None,
                  hv_bounds: tuple[np.ndarray, np.ndarray] | None = None) -> SearchResult:
     """NSGA-II (pymoo) on integer variables with an external archive; seeded and reproducible.
 

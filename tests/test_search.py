@@ -214,3 +214,26 @@ def test_study_evolutionary_close_to_exhaustive():
     evo = evolutionary(ev, sp.sizes, pb.n_obj, pb.n_con, budget=8000, seed=2, pop_size=80)
     # stated fraction for this small study: 90 % of the exact hypervolume within 8000 evaluations
     assert hypervolume(evo.archive.F, ideal, nadir) >= 0.90 * hypervolume(exact, ideal, nadir)
+
+
+def test_progress_bar_only_on_a_terminal():
+    import io
+
+    from strainline.optimizer.progress import Progress
+
+    class Tty(io.StringIO):
+        def isatty(self):
+            return True
+
+    tty, pipe = Tty(), io.StringIO()
+    for stream, quiet in ((tty, False), (pipe, False)):
+        p = Progress("solve", stream=stream, quiet=quiet, min_interval_s=0.0)
+        p.update(50, 100)
+        p.update(100, 100)
+        p.close()
+    assert "100.0%" in tty.getvalue() and tty.getvalue().endswith("\n")
+    assert pipe.getvalue() == ""
+    quiet = Tty()
+    p = Progress("solve", stream=quiet, quiet=True)
+    p.update(1, 2)
+    assert quiet.getvalue() == ""
