@@ -237,3 +237,21 @@ def test_cohn_air_helper_matches_direct_ellipk_near_k_to_one():
     w = np.array([1e-7, 1e-6, 1e-5])
     b = 1e-4
     np.testing.assert_allclose(cohn_stripline_air(w, b), _cohn54(w, b, 1.0), rtol=1e-8)
+
+
+def test_closed_forms_stay_within_their_documented_deviation_from_field_solutions():
+    # source: tests/reference/lines_field_solution.yaml (converged 2-D field solutions in lines.md);
+    # checks that the accuracy we state in docstrings and docs/line.md is what the code does
+    from pathlib import Path
+
+    import yaml
+
+    data = yaml.safe_load((Path(__file__).parent / "reference" / "lines_field_solution.yaml").read_text())
+    for case in data["cases"]:
+        geom = LineGeometry(width_m=case["width_um"] * 1e-6, gap_m=case.get("gap_um", float("nan")) * 1e-6,
+                            height_m=case["height_um"] * 1e-6, thickness_m=case["thickness_um"] * 1e-6,
+                            er=case["er"], cover_m=case.get("cover_um", 0.0) * 1e-6,
+                            cover_er=case.get("cover_er", 1.0))
+        value = float(getattr(evaluate_line(case["kind"], geom), case["quantity"]))
+        rel = value / case["reference"] - 1
+        assert case["rel_min"] <= rel <= case["rel_max"], (case["name"], rel)
