@@ -139,7 +139,23 @@ def _leaves(stackup: Stackup, inner_radius_m: float, inside_bottom: bool) -> lis
 
 def elastic_copper_strains(stackup: Stackup, inner_radius_m: float, inside_bottom: bool = True,
                            plane_strain: bool = False) -> np.ndarray:
-    """Worst-face elastic strain of every copper layer (signed fraction), in copper-layer order."""
+    """Worst-face elastic strain of every copper layer (signed fraction), in copper-layer order.
+
+    Parameters
+    ----------
+    stackup : Stackup
+    inner_radius_m : float
+        Inner bend radius, m.
+    inside_bottom : bool
+        True when the bottom face is inside the bend.
+    plane_strain : bool
+        Use plane-strain moduli.
+
+    Returns
+    -------
+    ndarray
+        One signed strain per copper layer (top to bottom), the face of larger magnitude.
+    """
     a = stackup.arrays(plane_strain)
     s = bend_strains(a.thickness_m, a.modulus_pa, inner_radius_m, inside_bottom,
                      None if a.bonded else a.leaf)

@@ -460,3 +460,30 @@ def test_property_epp_axis_inside_and_balanced(layers, r_mm, inside_bottom, eps_
     f = b.axial_force(t, e, ey, cap, p.strain_top, p.strain_bottom)
     scale = np.sum(e * t * (np.abs(p.strain_top) + np.abs(p.strain_bottom)))   # an all-elastic force size
     assert abs(f.sum()) <= 1e-9 * scale
+
+
+def test_stackup_records_validate_and_mirror():
+    with pytest.raises(ValueError, match="thickness"):
+        diel("x", -1, 2.8)
+    with pytest.raises(ValueError, match="coverage"):
+        cu("c", 18, coverage=1.2)
+    with pytest.raises(ValueError, match="foil"):
+        Layer("c", "copper", 18e-6, 118e9, 0.34, None, None, "ra")
+    gap = Layer("g", "air-gap", 0.0, 0.0, 0.0, None, None, "inline")
+    with pytest.raises(ValueError, match="air gap"):
+        Stackup((gap, diel("a", 25, 2.8)))
+    with pytest.raises(ValueError, match="two air gaps"):
+        Stackup((diel("a", 25, 2.8), gap, gap, diel("b", 25, 2.8)))
+    with pytest.raises(ValueError, match="features"):
+        Stackup((diel("a", 25, 2.8),), features=frozenset({"gold"}))
+    s = Stackup((diel("a", 25, 2.8), cu("c", 18), diel("b", 50, 5.0), gap, diel("d", 25, 3.0)))
+    assert s.leaf_ids() == (0, 0, 0, 1, 2)
+    a = s.arrays()
+    assert a.leaf.tolist() == [[0, 0, 0, 1, 2]] and not a.bonded and a.is_copper.tolist() == [[False, True, False,
+                                                                                                False, False]]
+    # [EB] the mirrored stack bent with its bottom inside equals the original with its top inside
+    m = s.mirrored().arrays()
+    top = b.bend_strains(a.thickness_m, a.modulus_pa, 1e-3, False, a.leaf)
+    bot = b.bend_strains(m.thickness_m, m.modulus_pa, 1e-3, True, m.leaf)
+    keep = ~a.is_air_gap[0]
+    np.testing.assert_allclose(top.strain_top[0, keep], bot.strain_bottom[0, ::-1][keep], rtol=1e-12)
