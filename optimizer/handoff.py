@@ -317,14 +317,27 @@ def build_sheet(cand: Mapping[str, Any], front: Mapping[str, Any], catalog: Any 
                   "line.geometry.method" if geom.get("method") else "line.method" if line.get("method") else "")
         fc = line.get("field_check")
         if isinstance(fc, Mapping):
-            fl = {"z0_ohm": ("field-solver impedance", "ohm"), "z_diff_ohm": ("field-solver differential impedance", "ohm"),
-                  "eps_eff": ("field-solver effective permittivity", ""), "width_um": ("field-solver refined width", "um"),
-                  "closed_form_error_pct": ("closed-form error against the field solver", "%"),
-                  "error_estimate_pct": ("field-solver discretisation error estimate", "%"),
-                  "refined_width_in_range": ("refined width inside the fabrication range", "")}
+            fl = {"z0_ohm": ("field-solved impedance at the designed width", "ohm"),
+                  "z_diff_ohm": ("field-solved differential impedance at the designed width", "ohm"),
+                  "z_odd_ohm": ("field-solved odd-mode impedance", "ohm"),
+                  "z_even_ohm": ("field-solved even-mode impedance", "ohm"),
+                  "z_common_ohm": ("field-solved common-mode impedance", "ohm"),
+                  "eps_eff": ("field-solved effective permittivity", ""),
+                  "eps_eff_even": ("field-solved even-mode effective permittivity", ""),
+                  "closed_form_error_pct": ("closed-form error against the field solution", "%"),
+                  "error_estimate_pct": ("field-solver error estimate (grid convergence)", "%"),
+                  "width_um": ("field-refined width for the target", "um"),
+                  "z_refined_ohm": ("field-solved impedance at the refined width", "ohm"),
+                  "refined_ok": ("refined width meets the impedance tolerance", ""),
+                  "refined_width_in_range": ("refined width inside the study's width range", ""),
+                  "error": ("field check not possible", "")}
             for fk, v in fc.items():
+                if fk in ("index", "seconds", "target_ohm") or (fk == "error" and v is None):
+                    continue
                 lab, unit = fl.get(fk, (fk.replace("_", " "), ""))
-                sheet.add("field-check", "field solver", lab, v, unit, f"line.field_check.{fk}")
+                sheet.add("field-check", "field solver", lab, v, unit, f"line.field_check.{fk}",
+                          "2-D quasi-static field solution of the idealised cross-section (strainline --verify)"
+                          if fk in ("z0_ohm", "z_diff_ohm") else "")
         else:
             sheet.add("field-check", "field solver", "field-solver check", "not run",
                       "", "", "run `strainline solve STUDY --verify` to add one")
@@ -470,7 +483,16 @@ def sheet_html(sheet: Sheet) -> str:
     caution = "".join(f"<p>{_e(c)}</p>" for c in sheet.cautions)
     wide = [r for r in sheet.section("impedance") + sheet.section("field-check")
             if r.quantity in ("equation used", "field-solver check")]
-    imp = [r for r in sheet.section("impedance") + sheet.section("field-check") if r not in wide]
+    imp = [r for r in sheet.section("impedance") if r not in wide]
+    checks = [r for r in sheet.section("field-check") if r not in wide]
+    if checks:
+        cells = [f"<th>{_e(r.quantity)}</th>{_cell(r, 5)}<td class='t u'>{_e(r.unit)}</td>" for r in checks]
+        pairs = ["<tr>" + "".join(cells[i:i + 2]) + "</tr>" for i in range(0, len(cells), 2)]
+        wide_note = checks[0].note or next((r.note for r in checks if r.note), "")
+        check_html = (f'<h2>Field-solver check</h2><table class="q fc">{"".join(pairs)}</table>'
+                      f'<p class="n">{_e(wide_note)}</p>')
+    else:
+        check_html = ""
     bend = sheet.section("bend") + sheet.section("objectives")
     wide_html = "".join(
         f'<p class="wide"><b>{_e(r.quantity)}:</b> <span'
@@ -502,6 +524,7 @@ neighbouring adhesive.</p>
 <div><h2>3. Bend requirements</h2>{_rows_table(bend)}</div>
 </div>
 {wide_html}
+{check_html}
 <h2>4. Notes</h2><ul class="notes">{notes}</ul>
 <p class="n">{_e(STRAIN_CONVENTION)}</p>
 <footer>{caution}</footer>
@@ -606,6 +629,7 @@ ul.notes li { margin: 2px 0; }
 ul.notes b { text-transform: uppercase; font-size: 10.5px; color: #8a5a00; margin-right: 4px; }
 .src { color: #5c6675; font-size: 11px; }
 p.wide { margin: 4px 0; }
+table.q.fc th { width: 30%; }
 footer { margin-top: 12px; border-top: 1px solid #d5dbe3; color: #5c6675; font-size: 11px; }
 @media print {
   @page { size: A4; margin: 11mm 10mm; }
@@ -614,6 +638,9 @@ footer { margin-top: 12px; border-top: 1px solid #d5dbe3; color: #5c6675; font-s
   h1 { font-size: 13pt; }
   h2 { font-size: 10pt; margin: 7px 0 3px; }
   .n, .src, table.q td.n { font-size: 7pt; }
+  table.stack td, table.stack th { padding: 0 4px; }
+  td.spec .n { font-size: 6.5pt; }
+  ul.notes li { font-size: 7.6pt; }
   ul.notes li { margin: 1px 0; }
   h2 { break-after: avoid; }
   table, li, .caution { break-inside: avoid; }

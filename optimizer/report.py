@@ -926,6 +926,15 @@ function drawLayerTable(c) {
   parts.push('bend: inner radius ' + fmt(bd.inner_radius_mm) + ' mm, ' + esc(bd.inside || '-') + ' face inside, ' +
     esc(bd.region || '-') + ', neutral axis ' + fmt(bd.neutral_axis_um) + ' um');
   if (bd.cycles_to_failure) parts.push('cycles to failure ' + fmt(bd.cycles_to_failure, 3));
+  var fc = l.field_check;
+  if (fc && !fc.error) {
+    var zf = fc.z_diff_ohm !== undefined && fc.z_diff_ohm !== null ? fc.z_diff_ohm : fc.z0_ohm;
+    parts.push('field check: ' + fmt(zf) + ' ohm at this width (closed form ' +
+      (fc.closed_form_error_pct >= 0 ? '+' : '') + fmt(fc.closed_form_error_pct, 3) + ' %), refined width ' +
+      fmt(fc.width_um) + ' um' + (fc.refined_width_in_range ? '' : ' (outside the width range)'));
+  } else if (fc && fc.error) {
+    parts.push('field check not possible: ' + esc(fc.error));
+  }
   parts.push('<a href="handoff/' + encodeURIComponent(c.id) + '.html">fabricator sheet</a>');
   document.getElementById('cand-figures').innerHTML = parts.join(' &middot; ');
   document.getElementById('cand-title').textContent = 'Candidate ' + c.id + ': peak copper strain ' +
@@ -962,6 +971,8 @@ col('gap_um', 'gap (um)', function (c) { return c.line.gap_um; });
 col('z0_ohm', 'Z0 (ohm)', function (c) { return c.line.z0_ohm; });
 col('z_diff_ohm', 'Zdiff (ohm)', function (c) { return c.line.z_diff_ohm; });
 col('eps_eff', 'eps eff', function (c) { return c.line.eps_eff; });
+col('field_error_pct', 'closed-form error vs field (%)', function (c) {
+  return c.line.field_check ? c.line.field_check.closed_form_error_pct : null; });
 col('cycles_to_failure', 'cycles to failure', function (c) { return c.bend.cycles_to_failure; });
 col('radius_to_thickness', 'R / thickness', function (c) { return c.bend.radius_to_thickness; });
 col('neutral_axis_um', 'neutral axis (um)', function (c) { return c.bend.neutral_axis_um; });

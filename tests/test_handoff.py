@@ -151,3 +151,18 @@ def test_write_replaces_folder_and_drops_stale_sheets(front, tmp_path):
     names = sorted(p.name for p in (tmp_path / "handoff").iterdir())
     assert names == sorted(p.name for p in paths)
     assert not [p for p in tmp_path.iterdir() if p.name.startswith(".")]   # no temporary folders left
+
+
+def test_field_check_rows_when_the_front_has_one(front, files):
+    cand = front["candidates"][0]
+    fc = cand["line"]["field_check"]
+    df = pd.read_csv(io.StringIO(files[f"{cand['id']}.csv"]), dtype=str, keep_default_na=False)
+    rows = df[df["section"] == "field-check"]
+    got = dict(zip(rows["key"], rows["value"]))
+    for k in ("z0_ohm", "eps_eff", "width_um", "closed_form_error_pct", "error_estimate_pct", "z_refined_ohm"):
+        assert float(got[f"line.field_check.{k}"]) == fc[k]
+    assert got["line.field_check.refined_width_in_range"] == "false"
+    assert "line.field_check.seconds" not in got                 # run bookkeeping, not for the fabricator
+    other = front["candidates"][1]
+    df2 = pd.read_csv(io.StringIO(files[f"{other['id']}.csv"]), dtype=str, keep_default_na=False)
+    assert list(df2.loc[df2["section"] == "field-check", "value"]) == ["not run"]
