@@ -11,6 +11,8 @@ from __future__ import annotations
 
 import argparse
 import math
+import os
+import resource
 import statistics
 import time
 
@@ -140,12 +142,19 @@ def front_runs(quick: bool):
     for kind in kinds:
         front = synthetic_front(kind)
         for workers in ([1] if quick else [1, 2]):
+            c0 = time.process_time()
+            ch0 = resource.getrusage(resource.RUSAGE_CHILDREN)
             t0 = time.perf_counter()
             res = verify_front(front, workers=workers)
             wall = time.perf_counter() - t0
+            ch1 = resource.getrusage(resource.RUSAGE_CHILDREN)
+            cpu = (time.process_time() - c0 + (ch1.ru_utime - ch0.ru_utime)
+                   + (ch1.ru_stime - ch0.ru_stime))
             fc = [c["line"]["field_check"] for c in res["candidates"]]
             err = [abs(c["closed_form_error_pct"]) for c in fc if c["closed_form_error_pct"] is not None]
-            print(f"{kind:20s} {len(fc)} candidates, workers={workers}: {wall:6.2f} s  "
+            nd = res["field_verification"]["distinct_cross_sections"]
+            print(f"{kind:20s} {len(fc)} candidates ({nd} distinct), workers={workers}: wall {wall:6.2f} s, "
+                  f"cpu {cpu:6.2f} s  "
                   f"(refined ok {sum(c['refined_ok'] for c in fc)}/{len(fc)}, "
                   f"|closed-form error| median {statistics.median(err):.2f} % max {max(err):.2f} %, "
                   f"max estimate {max(c['error_estimate_pct'] for c in fc):.3f} %)")
@@ -155,6 +164,7 @@ def main():
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--quick", action="store_true")
     args = ap.parse_args()
+    print(f"load average at start: {os.getloadavg()[0]:.2f} on {os.cpu_count()} cores")
     speed()
     accuracy()
     front_runs(args.quick)

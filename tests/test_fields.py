@@ -325,3 +325,34 @@ def test_wide_stripline_parallel_plate_limit():
     c_rel = 4 * (w / b) + 8 * math.log(2) / math.pi
     z = 1 / (C0 * EPS0 * c_rel * math.sqrt(er))
     assert abs(dev_pct(r.z0_ohm, z)) < 0.5
+
+
+def test_series_composite_dk_rule_checked_by_layered_field_solution():
+    # The closed forms fold stacked dielectrics into one Dk by series capacitance
+    # (strainline.models.lines.composite_er). That rule is exact in the parallel-plate limit
+    # (Jackson 1999, sec. 1.13), so the field solution with the real layers must approach it as
+    # the strip widens; for a narrow strip the fringing field sees the layer next to the trace more,
+    # and the composite_er docstring allows "up to a few percent".
+    from strainline.models.lines import composite_er
+
+    layers = [(25 * UM, 3.4), (25 * UM, 2.4)]       # from the plane up: adhesive, then film
+    er_c = float(composite_er(np.array([[25 * UM, 25 * UM]]), np.array([[3.4, 2.4]]))[0])
+    diffs = []
+    for w_um in (50.0, 2000.0):
+        g = LineGeometry(width_m=w_um * UM, height_m=50 * UM, thickness_m=12 * UM, er=er_c)
+        layered = field_solve("microstrip", g, layers_below=layers, cells_per_feature=2)
+        folded = field_solve("microstrip", g, cells_per_feature=2)
+        diffs.append(dev_pct(folded.z0_ohm, layered.z0_ohm))
+    assert abs(diffs[1]) < 0.25                      # wide strip: the parallel-plate limit
+    assert abs(diffs[1]) < abs(diffs[0]) < 3.0       # narrow strip: a few percent at most
+    assert diffs[0] < 0                              # low-Dk film at the trace: rule reads eps_eff high
+
+
+def test_finite_coplanar_grounds_approach_infinite_ones():
+    # Physics: narrower side grounds hold less charge, so Z0 rises monotonically as they shrink and
+    # tends to the infinite-ground value as they widen.
+    g = LineGeometry(width_m=100 * UM, gap_m=50 * UM, height_m=50 * UM, thickness_m=12 * UM, er=3.2)
+    z = [field_solve("coplanar", g, ground_width_m=gw, cells_per_feature=2).z0_ohm
+         for gw in (None, 1000 * UM, 30 * UM)]
+    assert z[0] < z[1] < z[2]
+    assert z[1] == pytest.approx(z[0], rel=2e-4)

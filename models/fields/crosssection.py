@@ -422,7 +422,7 @@ class WidthSolution:
 
 def field_solve_width(kind: str, target_ohm: float, geom: Any, width_start_m: float, *,
                       width_min_m: float = 0.0, width_max_m: float = math.inf,
-                      tol_pct: float = 0.05, max_iter: int = 12,
+                      tol_pct: float = 0.05, max_iter: int = 12, max_rounds: int = 4,
                       cells_per_feature: float = 3.0, open_margin: float = 60.0,
                       layers_below: Sequence[tuple[float, float]] | None = None,
                       ground_width_m: float | None = None,
@@ -450,6 +450,8 @@ def field_solve_width(kind: str, target_ohm: float, geom: Any, width_start_m: fl
         Acceptable impedance mismatch of the full solve, percent.
     max_iter : int
         Most cheap secant steps in total.
+    max_rounds : int
+        Most confirming full solves after the start (each may re-scale the cheap model).
     cells_per_feature, open_margin, layers_below, ground_width_m
         As in :func:`field_solve`.
     start : FieldResult, optional
@@ -484,11 +486,14 @@ def field_solve_width(kind: str, target_ohm: float, geom: Any, width_start_m: fl
     hi = min(width_max_m, 1e3 * w0) if math.isfinite(width_max_m) else 1e3 * w0
     lo_log, hi_log = math.log(lo / 3.0), math.log(hi * 3.0)
     steps = 0
+    rounds = 0
     w_full = w0
     while True:
         z_full = res.target_ohm
-        if abs(z_full / target_ohm - 1.0) * 100 <= tol_pct or steps >= max_iter:
+        if (abs(z_full / target_ohm - 1.0) * 100 <= tol_pct or steps >= max_iter
+                or rounds >= max_rounds):
             break
+        rounds += 1
         # scale the cheap model to the full solution at the current full-solve width
         ratio = z_full / cheap(w_full)
         xa, fa = math.log(w_full), z_full - target_ohm
