@@ -143,3 +143,16 @@ def test_failure_while_building_leaves_previous_outputs_untouched(run_cli, solve
     assert {p.name: p.read_bytes() for p in (solved / "handoff").iterdir()} == before
     assert (solved / "report.html").read_bytes() == report_before
     assert not [p for p in solved.iterdir() if p.name.startswith(".")]
+
+
+def test_text_from_front_json_is_escaped(front):
+    """A hostile layer name stays text in the page data, the report and the sheets."""
+    evil = '</script><img src=x onerror="alert(1)">'
+    front["candidates"][0]["layers"][0]["name"] = evil
+    page = build_report_html(front)
+    assert evil not in page
+    m = re.search(r'id="strainline-data">(.*?)</script>', page, re.S)
+    assert json.loads(m.group(1))["candidates"][0]["layers"][0]["name"] == evil
+    files = handoff.build_handoff(front)
+    sheet = files[f"{front['candidates'][0]['id']}.html"]
+    assert evil not in sheet and "&lt;/script&gt;&lt;img" in sheet

@@ -78,8 +78,6 @@ def test_report_loads_offline_and_selecting_updates_plots(browser_ctx, built, tm
     url = (out / "report.html").as_uri()
     page, log = _open(browser_ctx, url)
     try:
-        page.wait_for_timeout(300)
-        page.screenshot(path=str(tmp_path / "report-initial.png"), full_page=True)
         n = len(front["candidates"])
         # the front plot is drawn: one marker per candidate in the candidates trace
         idx = page.evaluate("document.getElementById('front').data.findIndex(t => t.name === 'candidates')")
