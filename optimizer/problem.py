@@ -346,8 +346,10 @@ class Problem:
         if prune:
             slots = self.space.slots(x)
             ok = self.line_ok(self.table.index(slots))
-            if not ok.all():
-                full = self.evaluate(x[ok], want_cycles) if ok.any() else None
+            # pruning pays only when a good share of the batch fails on its line
+            if ok.mean() <= 0.7:
+                sub = {k: v[ok] for k, v in slots.items()}
+                full = self._evaluate(x[ok], want_cycles, sub) if ok.any() else None
                 n = x.shape[0]
                 F = np.full((n, self.n_obj), np.nan)
                 G = np.zeros((n, self.n_con))
@@ -365,6 +367,7 @@ class Problem:
                     if want_cycles:
                         out.cycles[ok] = full.cycles
                 return out
+            return self._evaluate(x, want_cycles, slots)
         return self._evaluate(x, want_cycles)
 
     def _line_constraints(self, row: np.ndarray) -> dict[str, np.ndarray]:
@@ -378,10 +381,11 @@ class Problem:
             out["gap_space"] = (tb.min_space_m[row] - tb.gap_m[row]) / tb.min_space_m[row]
         return out
 
-    def _evaluate(self, x: np.ndarray, want_cycles: bool = False) -> Evaluation:
+    def _evaluate(self, x: np.ndarray, want_cycles: bool = False,
+                  slots: dict[str, np.ndarray] | None = None) -> Evaluation:
         sp, study = self.space, self.space.study
         n = x.shape[0]
-        t, e, leaf, slots = sp.mechanics(x)
+        t, e, leaf, slots = sp.mechanics(x, slots)
         bs = self.strains(t, e, leaf)
         cols = [cu_col(i) for i in range(sp.n_cu)]
         cu_peak = np.maximum(np.abs(bs.strain_top[:, cols]), np.abs(bs.strain_bottom[:, cols]))  # (n, N)

@@ -207,9 +207,11 @@ def test_batch_evaluation_equals_a_per_candidate_loop():
 
 
 def test_pruned_evaluation_keeps_feasible_results_and_feasibility():
-    study, sp = make(limits={"total_thickness_um": 150})
+    study, sp = make(limits={"total_thickness_um": 150}, line__width_range_um=[50, 110])
     pb = build_problem(sp, CAT)
     x = sample(sp, 5000, seed=2)
+    share = pb.line_ok(pb.table.index(sp.slots(x))).mean()
+    assert 0.05 < share < 0.7          # the pruned branch runs and keeps some candidates
     full = pb.evaluate(x)
     pr = pb.evaluate(x, prune=True)
     np.testing.assert_array_equal(full.feasible, pr.feasible)
