@@ -281,6 +281,16 @@ def build_line_table(space: Space, catalog) -> LineTable:
     )
 
 
+def quantize(F: np.ndarray, digits: int = 12) -> np.ndarray:
+    """Round to ``digits`` significant digits, so that the same design reached through different
+    codings (or summed in a different order) gives bit-identical objectives, not 1-ulp neighbours
+    that would count as separate front points."""
+    F = np.asarray(F, float)
+    mag = np.where(np.isfinite(F) & (F != 0), np.floor(np.log10(np.abs(np.where(F != 0, F, 1.0)))), 0.0)
+    scale = 10.0 ** (mag - (digits - 1))
+    return np.where(np.isfinite(F), np.round(F / scale) * scale, F)
+
+
 @dataclass
 class Evaluation:
     """Objectives and constraints of a batch, plus the figures the front reports."""
@@ -416,6 +426,7 @@ class Problem:
                 F[:, k] = tb.loss_db_per_m[row]
             elif o == "life":
                 F[:, k] = -np.log10(np.maximum(cycles, 1e-300))
+        F = quantize(F)
         lim = study.limits
         G = np.empty((n, self.n_con))
         line_g = self._line_constraints(row)

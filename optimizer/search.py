@@ -223,7 +223,7 @@ class SearchResult:
 
 
 def _digits(index: np.ndarray, sizes: np.ndarray) -> np.ndarray:
-    out = np.empty((index.size, sizes.size), np.int64)
+    out = np.empty((index.size, sizes.size), np.int64, order="F")   # column per variable, contiguous
     idx = index.copy()
     for k, s in enumerate(sizes):
         idx, out[:, k] = np.divmod(idx, s)

@@ -146,7 +146,7 @@ class Space:
     def index_to_x(self, index: np.ndarray) -> np.ndarray:
         """Mixed-radix digits (n, n_var) of candidate indices (first variable fastest)."""
         idx = np.asarray(index, dtype=np.int64).copy()
-        out = np.empty((idx.size, len(self.variables)), dtype=np.int64)
+        out = np.empty((idx.size, len(self.variables)), dtype=np.int64, order="F")   # x.T contiguous
         for k, v in enumerate(self.variables):
             idx, out[:, k] = np.divmod(idx, v.size)
         return out
@@ -318,21 +318,23 @@ class Space:
         b = self.blocks
         N, L = self.n_cu, self.n_layers
         n = s["signal"].shape[0]
-        t = np.empty((n, L))
-        e = np.empty((n, L))
+        # built layer-major (L, n) so every write is contiguous; returned as (n, L) Fortran-order
+        # views, which the bend model also reduces faster than C-order arrays
+        tT = np.empty((L, n))
+        eT = np.empty((L, n))
         ct, cb = s["cover_top"], s["cover_bot"]
         take = np.take
-        t[:, 0:2] = take(b["cov_t"], ct, axis=0)      # np.take: much faster than row fancy-indexing
-        e[:, 0:2] = take(b["cov_E"], ct, axis=0)
-        t[:, L - 2:] = take(b["cov_t_rev"], cb, axis=0)
-        e[:, L - 2:] = take(b["cov_E_rev"], cb, axis=0)
+        tT[0:2] = take(b["cov_tT"], ct, axis=1)
+        eT[0:2] = take(b["cov_ET"], ct, axis=1)
+        tT[L - 2:] = take(b["cov_tT_rev"], cb, axis=1)
+        eT[L - 2:] = take(b["cov_ET_rev"], cb, axis=1)
         n_adh = len(self.adh_opts)
         gcode = [(s["film"][:, g] * n_adh + s["adh"][:, g]) * 3 + s["place"][:, g] for g in range(N - 1)]
         for g in range(N - 1):
             c = 3 + 4 * g
-            t[:, c:c + 3] = take(b["gap_t"], gcode[g], axis=0)
-            e[:, c:c + 3] = take(b["gap_E"], gcode[g], axis=0)
-        # copper: Voigt mix with the fill picked by the neighbours (one 2-D table gather per layer)
+            tT[c:c + 3] = take(b["gap_tT"], gcode[g], axis=1)
+            eT[c:c + 3] = take(b["gap_ET"], gcode[g], axis=1)
+        # copper: Voigt mix with the fill picked by the neighbours (one table gather per layer)
         n_cov = len(self.cover_opts)
         fill_flat = b["fill"].ravel()
         n_col = b["fill"].shape[1]
@@ -343,8 +345,9 @@ class Space:
             fill = take(fill_flat, up * n_col + dn)
             cov = s["cov_val"][:, i]
             k = s["cu"][:, i]
-            t[:, c] = take(b["cu_t"], k)
-            e[:, c] = cov * (take(b["cu_E"], k) - fill) + fill
+            tT[c] = take(b["cu_t"], k)
+            eT[c] = cov * (take(b["cu_E"], k) - fill) + fill
+        t, e = tT.T, eT.T
         leaf = None
         if self.study.bend.region == "unbonded" and N > 1:
             is_air, leaf = self._leaves(s["signal"])
@@ -559,6 +562,9 @@ def _blocks(sp: Space) -> dict[str, np.ndarray]:
     return {
         "fill": np.ascontiguousarray(np.broadcast_to(fill, (len(ue), len(de)))),
         "cov_t_rev": cov_t[:, ::-1].copy(), "cov_E_rev": cov_E[:, ::-1].copy(),
+        "cov_tT": np.ascontiguousarray(cov_t.T), "cov_ET": np.ascontiguousarray(cov_E.T),
+        "cov_tT_rev": np.ascontiguousarray(cov_t[:, ::-1].T), "cov_ET_rev": np.ascontiguousarray(cov_E[:, ::-1].T),
+        "gap_tT": np.ascontiguousarray(gap_t.T), "gap_ET": np.ascontiguousarray(gap_E.T),
         "cov_t": cov_t, "cov_E": cov_E, "cov_fE": cov_fE, "cov_fadh": cov_fadh, "cov_fok": cov_fok,
         "cu_t": a["cu_t"], "cu_E": a["cu_E"] / ((1.0 - a["cu_nu"] ** 2) if ps else 1.0),
         "gap_t": gap_t, "gap_E": gap_E,
