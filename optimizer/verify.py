@@ -56,6 +56,9 @@ CAUTION = (
 
 Progress = Callable[[int, int], None]
 
+#: The base mesh is refined (at most twice) while the solver's error estimate exceeds this, percent.
+MAX_ESTIMATE_PCT = 0.5
+
 
 def _num(value: Any, default: float = math.nan) -> float:
     if value is None:
@@ -183,7 +186,9 @@ def check_candidate(task: Mapping[str, Any]) -> dict[str, Any]:
     try:
         geom = _geometry(task)
         cpf = task["cells_per_feature"]
-        res = field_solve(kind, geom, cells_per_feature=cpf, isolated_line=False)
+        res = field_solve(kind, geom, cells_per_feature=cpf, isolated_line=False,
+                          max_estimate_pct=MAX_ESTIMATE_PCT)
+        cpf = res.cells_per_feature
         z_field = res.target_ohm
         out[key] = _round(z_field)
         out["eps_eff"] = _round(res.eps_eff)
@@ -389,18 +394,20 @@ def field_for_line(kind: str, geom: Any, target_ohm: float | None,
 
     pair = kind in PAIR_KINDS
     try:
-        at_cf = field_solve(kind, geom)
+        at_cf = field_solve(kind, geom, max_estimate_pct=MAX_ESTIMATE_PCT)
     except ValueError as exc:
         raise InputError(f"the field solver cannot take this cross-section: {exc}", kind) from exc
+    cpf = at_cf.cells_per_feature
     res, width_m, estimate = at_cf, float(geom.width_m), at_cf.error_estimate_pct
     if target_ohm is not None:
         ws = field_solve_width(kind, float(target_ohm), geom, width_m, start=at_cf,
-                               width_min_m=width_range_um[0] * UM, width_max_m=width_range_um[1] * UM)
+                               cells_per_feature=cpf, width_min_m=width_range_um[0] * UM,
+                               width_max_m=width_range_um[1] * UM)
         if not ws.ok:
             raise InputError(f"{target_ohm:g} ohm cannot be reached by the field solver with widths "
                              f"{width_range_um[0]:g} to {width_range_um[1]:g} um", "--target-ohm")
         width_m = ws.width_m
-        res = field_solve(kind, replace(geom, width_m=width_m))
+        res = field_solve(kind, replace(geom, width_m=width_m), cells_per_feature=cpf)
         estimate = max(estimate, res.error_estimate_pct)
     out: dict[str, Any] = {"z0_ohm": _round(res.z0_ohm), "eps_eff": _round(res.eps_eff)}
     if pair:

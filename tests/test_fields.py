@@ -356,3 +356,16 @@ def test_finite_coplanar_grounds_approach_infinite_ones():
          for gw in (None, 1000 * UM, 30 * UM)]
     assert z[0] < z[1] < z[2]
     assert z[1] == pytest.approx(z[0], rel=2e-4)
+
+
+def test_max_estimate_refines_the_mesh():
+    # Cohn 1954 exact stripline (t = 0, where the strip-edge singularity makes the estimate large):
+    # asking for a smaller estimate refines the base mesh; the estimate still brackets the error.
+    w, b, er = 100 * UM, 100 * UM, 3.0
+    exact = ETA0 / (4 * math.sqrt(er)) / k_over_kp(math.tanh(math.pi * w / (2 * b)))
+    g = LineGeometry(width_m=w, height_m=b / 2, thickness_m=0.0, er=er)
+    plain = field_solve("stripline", g)
+    refined = field_solve("stripline", g, max_estimate_pct=0.5)
+    assert refined.cells_per_feature > plain.cells_per_feature
+    assert refined.error_estimate_pct < plain.error_estimate_pct
+    assert abs(dev_pct(refined.z0_ohm, exact)) <= refined.error_estimate_pct

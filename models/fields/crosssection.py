@@ -94,6 +94,8 @@ class FieldResult:
         Observed order of convergence of the capacitance (worst mode), for diagnostics.
     nodes : int
         Unknowns of the finest mesh (per mode solve).
+    cells_per_feature : float
+        Base-mesh density used (after any refinement for ``max_estimate_pct``).
     """
 
     z0_ohm: float
@@ -107,6 +109,7 @@ class FieldResult:
     error_estimate_pct: float
     order: float
     nodes: int
+    cells_per_feature: float = math.nan
 
     @property
     def target_ohm(self) -> float:
@@ -325,7 +328,8 @@ def _mode_result(sec: _Section, mode: str, cells_per_feature: float, open_margin
 def field_solve(kind: str, geom: Any, *, cells_per_feature: float = 3.0, levels: int = 3,
                 open_margin: float = 60.0, isolated_line: bool = True, even_mode: bool = True,
                 layers_below: Sequence[tuple[float, float]] | None = None,
-                ground_width_m: float | None = None) -> FieldResult:
+                ground_width_m: float | None = None,
+                max_estimate_pct: float | None = None) -> FieldResult:
     """Field-solve one cross-section.
 
     Parameters
@@ -355,6 +359,10 @@ def field_solve(kind: str, geom: Any, *, cells_per_feature: float = 3.0, levels:
         ``height_m`` and ``er`` (each layer its own Dk).
     ground_width_m : float, optional
         Coplanar: width of each side ground, m (default: to the side walls).
+    max_estimate_pct : float, optional
+        Refine the base mesh (x1.6 cells per feature, at most twice) while the error estimate is
+        above this, percent. Thin-copper-free (zero-thickness) strips need it most: their edge
+        singularity makes the estimate conservative but large.
 
     Returns
     -------
@@ -373,6 +381,19 @@ def field_solve(kind: str, geom: Any, *, cells_per_feature: float = 3.0, levels:
     etch trapezoid), perfectly smooth.
     """
     sec = _section(kind, geom, layers_below, ground_width_m)
+    res = _field_solve(sec, kind, cells_per_feature, open_margin, levels, isolated_line, even_mode)
+    refinements = 0
+    while (max_estimate_pct is not None and res.error_estimate_pct > max_estimate_pct
+           and refinements < 2):
+        refinements += 1
+        cells_per_feature *= 1.6
+        res = _field_solve(sec, kind, cells_per_feature, open_margin, levels, isolated_line,
+                           even_mode)
+    return res
+
+
+def _field_solve(sec: _Section, kind: str, cells_per_feature: float, open_margin: float,
+                 levels: int, isolated_line: bool, even_mode: bool) -> FieldResult:
     nan = math.nan
     args = (cells_per_feature, open_margin, levels)
     if kind in PAIR_KINDS:
@@ -386,9 +407,9 @@ def field_solve(kind: str, geom: Any, *, cells_per_feature: float = 3.0, levels:
         if isolated_line:
             z0, e0, g0, p0, _ = _mode_result(sec, "single", *args)
         return FieldResult(z0, eo, zo, ze, 2 * zo, ze / 2, eo, ee,
-                           100 * max(go, ge, g0), min(po, pe, p0), n1)
+                           100 * max(go, ge, g0), min(po, pe, p0), n1, cells_per_feature)
     z, e, g, p, n = _mode_result(sec, "single", *args)
-    return FieldResult(z, e, nan, nan, nan, nan, nan, nan, 100 * g, p, n)
+    return FieldResult(z, e, nan, nan, nan, nan, nan, nan, 100 * g, p, n, cells_per_feature)
 
 
 def _with_width(geom: Any, width_m: float) -> Any:
