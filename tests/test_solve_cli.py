@@ -262,3 +262,20 @@ def test_reported_figures_match_the_bend_and_line_commands(solved, tmp_path, run
         code, out, err = run_cli(*args)
         assert code == 0, err
         assert json.loads(out)["z0_ohm"] == pytest.approx(ln["z0_ohm"], rel=1e-6)   # the command prints 6 decimals
+
+
+def test_verify_flag_field_checks_the_front(tmp_path, run_cli):
+    pytest.importorskip("strainline.optimizer.verify")
+    data = {
+        "name": "verify-unit",
+        "line": {"type": "microstrip", "target_ohm": 50, "width_range_um": [50, 500], "frequency_ghz": 2},
+        "bend": {"inner_radius_mm": 6, "use": "dynamic", "cycles": 3000},
+        "stack": {"copper_layers": 2, "copper_weights": ["1/3oz"], "dielectric": ["polyimide-film"],
+                  "adhesive": ["none"], "coverlay": ["polyimide-coverlay-acrylic"]},
+        "objectives": ["thickness"],
+    }
+    code, out, err = run_cli("solve", write_study(tmp_path, data), "--out", tmp_path / "o", "--verify", "--quiet")
+    assert code == 0, err
+    front = json.loads((tmp_path / "o" / "front.json").read_text())
+    fv = front["field_verification"]
+    assert fv["candidates"] == len(front["candidates"]) == 1 and fv["failed"] == 0
