@@ -17,11 +17,10 @@ from typing import Any
 import numpy as np
 
 from strainline.models.stackup import Layer, Stackup
-from strainline.models.units import GPA, MM, UM
+from strainline.models.units import UM
 from strainline.optimizer.problem import CONSTRAINT_TEXT, Problem
 from strainline.optimizer.search import SearchResult, hypervolume
 from strainline.optimizer.space import Space, cu_col, gap_cols
-from strainline.optimizer.study import OBJECTIVE_KEYS
 
 CAUTION = (
     "Estimates for concept work only: verify with the fabricator's impedance modelling and coupons and "
@@ -408,4 +407,4 @@ def _fmt(v: Any) -> str:
 
 
 __all__ = ["build_front", "write_outputs", "front_dataframe", "front_csv", "format_table", "candidate_stackup",
-           "CAUTION", "OBJECTIVE_KEYS", "GPA", "MM"]
+           "CAUTION"]

@@ -30,7 +30,7 @@ from typing import Any
 
 import numpy as np
 
-from strainline.models.units import GHZ, MM, UM
+from strainline.models.units import UM
 from strainline.optimizer.study import GAP_KINDS, NONE, Study
 
 #: Copper-column index of copper layer i and the three gap columns of gap g (see module docstring).
@@ -573,4 +573,4 @@ def _blocks(sp: Space) -> dict[str, np.ndarray]:
     }
 
 
-__all__ = ["Space", "Decoded", "Variable", "build_space", "cu_col", "gap_cols", "MM", "GHZ"]
+__all__ = ["Space", "Decoded", "Variable", "build_space", "cu_col", "gap_cols"]
