@@ -675,6 +675,7 @@ var LABELS = {peak_strain_pct: 'peak copper strain (%)', total_thickness_um: 'to
 function label(k) { return LABELS[k] || k.replace(/_/g, ' '); }
 function fmt(v, d) {
   if (v === null || v === undefined) return '-';
+  if (Array.isArray(v)) return v.map(function (x) { return fmt(x, d); }).join(' / ');
   if (typeof v !== 'number') return String(v);
   d = d || 4;
   var a = Math.abs(v);
@@ -713,7 +714,8 @@ for (var i = 0; i < pref.length; i++) {
 }
 if (!state.colour && colourOpts.length) state.colour = colourOpts[0].key;
 sel.value = state.colour;
-sel.addEventListener('change', function () { state.colour = sel.value; drawFront(); drawParcoords(); });
+sel.addEventListener('change', function () { state.colour = sel.value; drawFront(); if (pcDrawn) drawParcoords(); });
+var pcDrawn = false;
 function colourValues() {
   var o = colourOpts.filter(function (o) { return o.key === state.colour; })[0];
   if (!o) return {vals: C.map(function () { return 0; }), title: '', log: false};
@@ -924,7 +926,8 @@ function drawLayerTable(c) {
     (l.gap_um !== null && l.gap_um !== undefined ? ', gap ' + fmt(l.gap_um) + ' um' : ''));
   if (l.z_diff_ohm) parts.push('Zdiff ' + fmt(l.z_diff_ohm) + ' ohm'); else if (l.z0_ohm) parts.push('Z0 ' + fmt(l.z0_ohm) + ' ohm');
   parts.push('bend: inner radius ' + fmt(bd.inner_radius_mm) + ' mm, ' + esc(bd.inside || '-') + ' face inside, ' +
-    esc(bd.region || '-') + ', neutral axis ' + fmt(bd.neutral_axis_um) + ' um');
+    esc(bd.region || '-') + ', neutral axis ' + fmt(bd.neutral_axis_um) + ' um' +
+    (Array.isArray(bd.neutral_axis_um) ? ' (one per bonded leaf, top to bottom)' : ''));
   if (bd.cycles_to_failure) parts.push('cycles to failure ' + fmt(bd.cycles_to_failure, 3));
   var fc = l.field_check;
   if (fc && !fc.error) {
@@ -1026,7 +1029,16 @@ function select(i) {
   window.strainline.renders += 1;
 }
 
-drawParcoords();
+// the parallel-coordinates view (WebGL) is drawn when it comes near the screen, so the page is usable at once
+(function () {
+  var box = document.getElementById('parcoords');
+  function go() { if (!pcDrawn) { pcDrawn = true; drawParcoords(); } }
+  if (!('IntersectionObserver' in window)) { go(); return; }
+  var io = new IntersectionObserver(function (entries) {
+    if (entries.some(function (e) { return e.isIntersecting; })) { io.disconnect(); go(); }
+  }, {rootMargin: '300px'});
+  io.observe(box);
+})();
 if (C.length) {
   var best = 0;
   C.forEach(function (c, i) { if (c.objectives.peak_strain_pct < C[best].objectives.peak_strain_pct) best = i; });

@@ -26,6 +26,7 @@ from strainline.optimizer.report import figure, write_all
 FIXTURE = Path(__file__).parent / "fixtures" / "front_small.json"
 #: a shipped study with a differential (coupled) line, the most elaborate drawing
 SOLVED_STUDY = Path(__file__).resolve().parents[1] / "studies" / "gimbal-camera-tail.yaml"
+UNBONDED_BASE = Path(__file__).resolve().parents[1] / "studies" / "handheld-scanner-hinge.yaml"
 CHROMIUM = shutil.which("chromium") or "/usr/bin/chromium"
 ARGS = ["--no-sandbox", "--disable-gpu", "--disable-background-networking", "--disable-component-update",
         "--no-first-run", "--disable-sync"]
@@ -46,18 +47,30 @@ def browser_ctx():
     shutil.rmtree(profile, ignore_errors=True)
 
 
-@pytest.fixture(scope="module", params=["fixture", "solved"])
+@pytest.fixture(scope="module", params=["fixture", "solved", "unbonded"])
 def built(request, tmp_path_factory):
-    """A report built from the hand-made fixture, and one from a real `strainline solve` run."""
+    """Reports built from the hand-made fixture and from real `strainline solve` runs: a shipped study,
+    and the shipped hinge study turned into a 4-copper unbonded bend (air gaps, one neutral axis per leaf)."""
     out = tmp_path_factory.mktemp(request.param)
     if request.param == "fixture":
         front = json.loads(FIXTURE.read_text(encoding="utf-8"))
         shutil.copy(FIXTURE, out / "front.json")
         write_all(front, out)
-    else:
-        assert main(["solve", str(SOLVED_STUDY), "--out", str(out), "--budget", "500", "--quiet"]) == 0
-        front = json.loads((out / "front.json").read_text(encoding="utf-8"))
-        assert front["candidates"]
+        return out, front
+    study = SOLVED_STUDY
+    args = ["--budget", "500"]
+    if request.param == "unbonded":
+        text = UNBONDED_BASE.read_text(encoding="utf-8")
+        assert "region: bonded" in text and "copper_layers: 2" in text
+        study = out / "unbonded.yaml"
+        study.write_text(text.replace("region: bonded", "region: unbonded").replace(
+            "copper_layers: 2", "copper_layers: 4"), encoding="utf-8")
+        args = ["--budget", "800", "--method", "evolutionary"]
+    assert main(["solve", str(study), "--out", str(out), *args, "--quiet"]) == 0
+    front = json.loads((out / "front.json").read_text(encoding="utf-8"))
+    assert front["candidates"]
+    if request.param == "unbonded":
+        assert any(isinstance(c["bend"]["neutral_axis_um"], list) for c in front["candidates"])
     return out, front
 
 
@@ -146,8 +159,11 @@ def test_report_loads_offline_and_selecting_updates_plots(browser_ctx, built, tm
         after = page.evaluate(titles)
         assert after != before
         assert page.locator("#pair-buttons button.on").count() == 1
-        # parallel coordinates drawn
-        assert page.evaluate("document.querySelectorAll('#parcoords .y-axis').length") >= 2
+        # parallel coordinates drawn once scrolled into view, one axis per varying decision variable
+        page.locator("#parcoords").scroll_into_view_if_needed()
+        page.wait_for_function("document.querySelectorAll('#parcoords .y-axis').length >= 2", timeout=30000)
+        n_dims = page.evaluate("document.getElementById('parcoords').data[0].dimensions.length")
+        assert n_dims == len(page.evaluate("window.strainline.data.decisions")) >= 2
         # cautions in plain view
         text = page.inner_text("#cautions")
         assert "IPC-TM-650" in text and "IPC-2223" in text and "IPC-6013" in text and "concept" in text
