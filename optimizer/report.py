@@ -322,6 +322,56 @@ def strain_limit_pct(front: Mapping[str, Any]) -> float | None:
     return float(v) if _num(v) else None
 
 
+def strain_limits(front: Mapping[str, Any], catalog: Any | None) -> tuple[list[float | None], str]:
+    """Per candidate, the copper strain limit (percent) to mark on its strain profile, and its basis.
+
+    The study's own ``limits.peak_strain_pct`` when it gives one. Else, for dynamic use with a cycle
+    count, the peak strain whose Engelmaier strain range (IPC-TM-650 2.4.2.1 form, as in
+    :func:`strainline.models.fatigue.engelmaier_strain_range`) gives that many cycles for the weakest
+    copper foil of the candidate (range = peak for flat-to-bent motion, 2 x peak when reversed). Else, for
+    an install bend, about 2 % (common practice, no source).
+    """
+    cands = front.get("candidates") or []
+    given = strain_limit_pct(front)
+    if given is not None:
+        return [given] * len(cands), "the study's strain limit (limits.peak_strain_pct)"
+    use = _study_value(front, "bend", "use")
+    cycles = _study_value(front, "bend", "cycles") or _study_value(front, "limits", "min_cycles")
+    motion = _study_value(front, "bend", "motion") or "flat-to-bent"
+    if cands and isinstance(cands[0].get("bend"), Mapping):
+        use = cands[0]["bend"].get("use", use)
+        cycles = cands[0]["bend"].get("required_cycles", cycles)
+        motion = cands[0]["bend"].get("motion", motion)
+    from strainline.models import rules
+
+    if use == "dynamic" and _num(cycles) and catalog is not None:
+        import numpy as np
+
+        from strainline.models.fatigue import engelmaier_strain_range, strain_range
+
+        owner, df, su, e = [], [], [], []
+        for i, c in enumerate(cands):
+            for lay in c["layers"]:
+                foil = getattr(catalog, "foils", {}).get(lay.get("copper") or lay.get("foil") or lay.get("material"))
+                if lay.get("kind") == "copper" and foil is not None:
+                    owner.append(i)
+                    df.append(foil.fatigue_ductility)
+                    su.append(foil.tensile_strength_pa)
+                    e.append(float(lay.get("modulus_gpa") or foil.modulus_pa / 1e9) * 1e9)
+        if owner:
+            rng = engelmaier_strain_range(np.full(len(owner), float(cycles)), np.array(df), np.array(su), np.array(e))
+            peak = 100.0 * rng / float(strain_range(1.0, motion))
+            out: list[float | None] = [None] * len(cands)
+            for i, v in zip(owner, peak):
+                out[i] = float(v) if out[i] is None else min(out[i], float(v))
+            return out, (f"peak strain for {float(cycles):.3g} cycles ({motion}) by Engelmaier's copper-foil "
+                         "equation (IPC-TM-650 2.4.2.1), weakest copper foil of the candidate")
+    if use == "install":
+        return [100.0 * rules.INSTALL_STRAIN_LIMIT] * len(cands), \
+            "about 2 % copper strain for a one-time install bend (common practice, no source)"
+    return [None] * len(cands), ""
+
+
 def study_name(front: Mapping[str, Any]) -> str:
     st = front.get("study")
     if isinstance(st, Mapping):
@@ -388,8 +438,9 @@ def _infeasible_message(front: Mapping[str, Any]) -> str:
 
 def _page_data(front: Mapping[str, Any], catalog: Any | None) -> dict[str, Any]:
     cands = front["candidates"]
+    limits, limit_basis = strain_limits(front, catalog)
     view = []
-    for c in cands:
+    for c, lim in zip(cands, limits):
         layers = c["layers"]
         hts = layer_heights(layers)
         figures = dict(c["objectives"])
@@ -403,6 +454,7 @@ def _page_data(front: Mapping[str, Any], catalog: Any | None) -> dict[str, Any]:
             "layers": [dict(lay, bottom_um=b, top_um=t, family=family_of(lay, catalog),
                             fill_family=_fill_family(lay, catalog))
                        for lay, (b, t) in zip(layers, hts)],
+            "strain_limit_pct": lim,
             "signal": signal_index(c),
             "refs": reference_indices(c),
             "findings": findings_of(c),
@@ -425,6 +477,7 @@ def _page_data(front: Mapping[str, Any], catalog: Any | None) -> dict[str, Any]:
         "dominated": dom,
         "decisions": decision_table(cands),
         "strain_limit_pct": strain_limit_pct(front),
+        "strain_limit_basis": limit_basis,
         "infeasible": _infeasible_message(front),
         "colours": FAMILY_COLOURS,
     }
@@ -879,13 +932,13 @@ function drawStrain(c) {
       width: isCu ? 4 : 1.5}, marker: {size: 7, symbol: 'diamond'}, name: l.name, hoverinfo: 'text',
       text: [esc(l.name) + ' bottom face: ' + fmt(l.strain_bottom_pct) + ' %', esc(l.name) + ' top face: ' + fmt(l.strain_top_pct) + ' %']});
   });
-  var lim = D.strain_limit_pct;
+  var lim = c.strain_limit_pct;
   if (typeof lim === 'number') {
     [-lim, lim].forEach(function (x) {
       shapes.push({type: 'line', x0: x, x1: x, y0: 0, y1: total, line: {color: '#c0392b', width: 1.2, dash: 'dot'}});
     });
-    anns.push({x: lim, y: total, text: 'strain limit +/-' + fmt(lim) + ' %', showarrow: false, xanchor: 'right',
-      yanchor: 'bottom', font: {size: 11, color: '#c0392b'}});
+    anns.push({x: lim, y: total, text: 'strain limit +/-' + fmt(lim, 3) + ' %', showarrow: false, xanchor: 'right',
+      yanchor: 'bottom', font: {size: 11, color: '#c0392b'}, hovertext: esc(D.strain_limit_basis)});
   }
   var na = c.bend.neutral_axis_um;
   (Array.isArray(na) ? na : [na]).forEach(function (y) {
@@ -929,6 +982,8 @@ function drawLayerTable(c) {
     esc(bd.region || '-') + ', neutral axis ' + fmt(bd.neutral_axis_um) + ' um' +
     (Array.isArray(bd.neutral_axis_um) ? ' (one per bonded leaf, top to bottom)' : ''));
   if (bd.cycles_to_failure) parts.push('cycles to failure ' + fmt(bd.cycles_to_failure, 3));
+  if (typeof c.strain_limit_pct === 'number') parts.push('strain limit +/-' + fmt(c.strain_limit_pct, 3) + ' % (' +
+    esc(D.strain_limit_basis) + ')');
   var fc = l.field_check;
   if (fc && !fc.error) {
     var zf = fc.z_diff_ohm !== undefined && fc.z_diff_ohm !== null ? fc.z_diff_ohm : fc.z0_ohm;

@@ -156,3 +156,42 @@ def test_text_from_front_json_is_escaped(front):
     files = handoff.build_handoff(front)
     sheet = files[f"{front['candidates'][0]['id']}.html"]
     assert evil not in sheet and "&lt;/script&gt;&lt;img" in sheet
+
+
+def _without_study_limit(front, **bend):
+    front["study"]["limits"] = {}
+    front["study"]["bend"].update(bend)
+    for c in front["candidates"]:
+        c["bend"].pop("use", None)
+    return front
+
+
+@pytest.mark.parametrize("motion, per_cycle_peak_pct", [
+    # Engelmaier strain range allowed for 1e4 cycles, RA copper D_f 0.65, S_u 230 MPa, E 118 GPa:
+    # 0.52 % (bending reference notes, section 3.6 inverse table, computed from Engelmaier's equation);
+    # flat-to-bent: peak = range; reversed bending: range = 2 x peak
+    ("flat-to-bent", 0.52),
+    ("reversed", 0.26),
+])
+def test_strain_limit_from_required_cycles(front, motion, per_cycle_peak_pct):
+    from strainline.optimizer.catalog import load_catalog
+    from strainline.optimizer.report import strain_limits
+
+    cat = load_catalog()
+    ra = cat.foil("rolled-annealed")
+    assert (ra.fatigue_ductility, ra.tensile_strength_pa, ra.modulus_pa) == (0.65, 230e6, 118e9)
+    limits, basis = strain_limits(_without_study_limit(front, use="dynamic", cycles=1e4, motion=motion), cat)
+    assert len(limits) == len(front["candidates"])
+    for v in limits:                      # every fixture copper layer is rolled-annealed at 118 GPa
+        assert v == pytest.approx(per_cycle_peak_pct, rel=0.01)
+    assert "Engelmaier" in basis and motion in basis
+
+
+def test_strain_limit_install_and_study_given(front):
+    from strainline.optimizer.report import strain_limits
+
+    limits, basis = strain_limits(front, None)
+    assert limits == [5.0] * len(front["candidates"]) and "study" in basis
+    limits, basis = strain_limits(_without_study_limit(front, use="install"), None)
+    assert limits == [2.0] * len(front["candidates"])          # about 2 %: common practice, no source
+    assert "common practice, no source" in basis
