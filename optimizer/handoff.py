@@ -54,10 +54,11 @@ CONSTRUCTION_NOTES: tuple[tuple[str, str], ...] = (
      "running along the conductors through the bend; state the grain direction on the drawing.",
      "annealed wrought foil for severe or high-cycle flexing: IPC-TR-484 (1986) copper-foil ductility round "
      "robin; grain direction on drawings: K. Smith, 'Decreasing Bend Radius and Improving Reliability, "
-     "Part I', I-Connect007 Flex007 (2019)"),
+     "Part I', trade-magazine column (2019)"),
     ("No plated-through holes, vias or panel plating in the bend region; plate pads only (button plating) "
      "so the bend conductors stay at base-foil thickness.",
-     "button plating preferred: K. Smith, I-Connect007 Flex007 Part I (2019); holes kept out of the bend: "
+     "button plating preferred: K. Smith, 'Decreasing Bend Radius and Improving Reliability, Part I' (2019); "
+     "holes kept out of the bend: "
      "common practice, no source"),
     ("Route conductors perpendicular to the bend line and stagger them between adjacent layers "
      "(no conductors stacked directly over each other).",
@@ -66,7 +67,7 @@ CONSTRUCTION_NOTES: tuple[tuple[str, str], ...] = (
      "common practice, no source"),
     ("Coverlay adhesive must fill between the conductors (about 1 mil of adhesive per ounce of copper); "
      "voids let the copper bend on its own.",
-     "K. Smith, 'Decreasing Bend Radius and Improving Reliability, Part II', I-Connect007 Flex007 (2019)"),
+     "K. Smith, 'Decreasing Bend Radius and Improving Reliability, Part II', trade-magazine column (2019)"),
     ("Strain and life figures assume an elastic, perfectly bonded stack (transformed-section neutral axis); "
      "above the copper yield strain the worst-face strain is underestimated.",
      "composite-beam model (transformed section), e.g. Gere and Timoshenko, Mechanics of Materials; "
