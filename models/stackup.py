@@ -142,7 +142,7 @@ class Layer:
 def resolve_fills(layers: tuple[Layer, ...]) -> tuple[Layer, ...]:
     """Give every partially covered copper layer its fill material.
 
-    Rule (documented in docs/bend.md): a layer's explicit fill wins. Otherwise the adjacent
+    Rule (documented in README.md (bend mechanics)): a layer's explicit fill wins. Otherwise the adjacent
     adhesive (the layer above first, then the one below) flows into the gaps; failing that, the
     adjacent dielectric (above first, then below); with no dielectric neighbour (air gap, other
     copper, or the outer surface on both sides) the fill is air (modulus 0).

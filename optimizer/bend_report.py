@@ -94,7 +94,7 @@ def bend_report(stackup: Stackup, inner_radius_mm: float, inside: str = "bottom"
     Returns
     -------
     dict
-        JSON-ready (no inf/nan): see docs/bend.md for every field.
+        JSON-ready (no inf/nan): see README.md (bend mechanics) for every field.
 
     Raises
     ------

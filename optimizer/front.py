@@ -1,6 +1,6 @@
 """The Pareto front: candidates with every figure needed to recompute them, outputs, hypervolume.
 
-:func:`build_front` turns a search result into the ``front.json`` object (see docs/solve.md);
+:func:`build_front` turns a search result into the ``front.json`` object (see README.md, strainline solve);
 :func:`write_outputs` writes ``front.json`` and ``front.csv`` atomically (the report and handoff
 writers hook in there); :func:`front_dataframe` is the flat pandas view; :func:`format_table` the
 short text table ``strainline solve`` prints.
@@ -175,7 +175,7 @@ def build_front(problem: Problem, result: SearchResult, catalog: Any, seed: int,
         }
         findings = list(rep["findings"])
         for note in method_findings(kind, geom):
-            findings.append(_finding("line-method", "info", note, "lines reference notes (lines.md)"))
+            findings.append(_finding("line-method", "info", note, "closed form against a converged 2-D field solution (strainline line --field-solve)"))
         for note in range_findings(kind, geom):
             findings.append(_finding("line-range", "warning", note, "stated validity range of the equation"))
         err = tb.z_ohm[row] / study.line.target_ohm - 1

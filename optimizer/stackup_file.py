@@ -1,6 +1,6 @@
 """Read a stackup file (YAML) into a :class:`~strainline.models.stackup.Stackup`.
 
-The file format is documented in docs/bend.md. Every error is one :class:`StackupError` line naming
+The file format is documented in README.md (bend mechanics). Every error is one :class:`StackupError` line naming
 the file, the field path, the bad value and the allowed values or range.
 """
 from __future__ import annotations
@@ -99,7 +99,7 @@ def load_stackup(path: str | os.PathLike[str], catalog) -> Stackup:
     Parameters
     ----------
     path : path-like
-        The YAML file (layers top to bottom; format in docs/bend.md).
+        The YAML file (layers top to bottom; format in README.md (bend mechanics)).
     catalog : strainline.optimizer.catalog.Catalog
         Materials, coverlays, foils and weights the file may name.
 

@@ -4,7 +4,7 @@ A study names the line to hold, the bend, the stack family to search, limits, ob
 search settings. Every problem with a study becomes one :class:`StudyError` whose text names the
 file, the field path, the bad value and the allowed values (with the closest match).
 
-The format is documented in ``docs/study.md``; ``catalogs/study.schema.json`` is the matching JSON
+The format is documented in ``README.md, "Study files"``; ``catalogs/study.schema.json`` is the matching JSON
 Schema for editors. Values stay in edge units here (um, mm, GHz, ohm, percent); the design space
 converts to SI.
 """

@@ -241,7 +241,7 @@ def test_cohn_air_helper_matches_direct_ellipk_near_k_to_one():
 
 def test_closed_forms_stay_within_their_documented_deviation_from_field_solutions():
     # source: tests/reference/lines_field_solution.yaml (converged 2-D field solutions in lines.md);
-    # checks that the accuracy we state in docstrings and docs/line.md is what the code does
+    # checks that the accuracy we state in docstrings and README.md (strainline line) is what the code does
     from pathlib import Path
 
     import yaml

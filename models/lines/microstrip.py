@@ -306,7 +306,7 @@ def microstrip_range_flags(width_m, height_m, thickness_m, er, cover_m=0.0, cove
     flags = {
         "microstrip w/h outside 0.01..100 (Hammerstad & Jensen 1980)": (u < 0.01) | (u > 100.0),
         "microstrip er above 128 (Hammerstad & Jensen 1980)": er > 128.0,
-        "microstrip t/h above 1: thickness correction not checked beyond (lines.md)": tn > 1.0,
+        "microstrip t/h above 1: thickness correction not checked beyond (field-solver check)": tn > 1.0,
     }
     if freq_hz is not None:
         f = np.asarray(freq_hz, dtype=float)
