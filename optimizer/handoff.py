@@ -33,6 +33,7 @@ from typing import Any
 
 from strainline.optimizer.fileio import write_atomic
 from strainline.optimizer.report import (
+    study_value,
     STRAIN_CONVENTION,
     _try_catalog,
     cautions,
@@ -195,15 +196,6 @@ def _impedance_tolerance(front: Mapping[str, Any], line: Mapping[str, Any], cata
     return None, "", "not stated"
 
 
-def _study_get(front: Mapping[str, Any], *path: str) -> Any:
-    node: Any = front.get("study")
-    for k in path:
-        if not isinstance(node, Mapping):
-            return None
-        node = node.get(k)
-    return node
-
-
 # ----------------------------------------------------------------------------- building a sheet
 def build_sheet(cand: Mapping[str, Any], front: Mapping[str, Any], catalog: Any | None = None) -> Sheet:
     """Collect the sheet of one candidate (no I/O beyond the catalog already loaded)."""
@@ -291,7 +283,7 @@ def build_sheet(cand: Mapping[str, Any], front: Mapping[str, Any], catalog: Any 
         target = line.get("target_ohm")
         tkey = "line.target_ohm"
         if target is None:
-            target, tkey = _study_get(front, "line", "target_ohm"), ""
+            target, tkey = study_value(front, "line", "target_ohm"), ""
         sheet.add("impedance", "line", "target differential impedance" if pair else "target impedance",
                   target, "ohm", tkey, "" if tkey else "from the study (line.target_ohm)")
         tol, tolkey, tolnote = _impedance_tolerance(front, line, catalog)
@@ -349,16 +341,16 @@ def build_sheet(cand: Mapping[str, Any], front: Mapping[str, Any], catalog: Any 
     use = bend.get("use")
     ukey = "bend.use"
     if use is None:
-        use, ukey = _study_get(front, "bend", "use"), ""
+        use, ukey = study_value(front, "bend", "use"), ""
     sheet.add("bend", "bend", "use (state the IPC-6013 flex use on the drawing)",
               use, "", ukey, _USE_TEXT.get(str(use), ""))
     ckey = next((f"bend.{k}" for k in ("required_cycles", "cycles_required") if bend.get(k) is not None), "")
     cyc = bend.get(ckey[5:]) if ckey else None
     if cyc is None:
-        cyc, ckey = _study_get(front, "bend", "cycles"), ""
+        cyc, ckey = study_value(front, "bend", "cycles"), ""
     if cyc is not None:
         sheet.add("bend", "bend", "flex cycles required", cyc, "cycles", ckey, "" if ckey else "from the study")
-    motion = bend.get("motion") or _study_get(front, "bend", "motion")
+    motion = bend.get("motion") or study_value(front, "bend", "motion")
     if motion is not None:
         sheet.add("bend", "bend", "motion", motion, "", "bend.motion" if bend.get("motion") else "")
     sheet.add("bend", "bend", "bend region", bend.get("region"), "", "bend.region",

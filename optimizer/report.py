@@ -303,7 +303,7 @@ def decision_table(cands: Sequence[Mapping[str, Any]]) -> list[dict[str, Any]]:
     return varying or out
 
 
-def _study_value(front: Mapping[str, Any], *path: str) -> Any:
+def study_value(front: Mapping[str, Any], *path: str) -> Any:
     node: Any = front.get("study")
     for key in path:
         if not isinstance(node, Mapping):
@@ -315,7 +315,7 @@ def _study_value(front: Mapping[str, Any], *path: str) -> Any:
 def strain_limit_pct(front: Mapping[str, Any]) -> float | None:
     """The study's copper strain limit in percent, when it states one."""
     for path in (("limits", "peak_strain_pct"), ("limits", "strain_pct"), ("limits", "max_strain_pct")):
-        v = _study_value(front, *path)
+        v = study_value(front, *path)
         if _num(v):
             return float(v)
     v = (front.get("limits") or {}).get("peak_strain_pct") if isinstance(front.get("limits"), Mapping) else None
@@ -335,9 +335,9 @@ def strain_limits(front: Mapping[str, Any], catalog: Any | None) -> tuple[list[f
     given = strain_limit_pct(front)
     if given is not None:
         return [given] * len(cands), "the study's strain limit (limits.peak_strain_pct)"
-    use = _study_value(front, "bend", "use")
-    cycles = _study_value(front, "bend", "cycles") or _study_value(front, "limits", "min_cycles")
-    motion = _study_value(front, "bend", "motion") or "flat-to-bent"
+    use = study_value(front, "bend", "use")
+    cycles = study_value(front, "bend", "cycles") or study_value(front, "limits", "min_cycles")
+    motion = study_value(front, "bend", "motion") or "flat-to-bent"
     if cands and isinstance(cands[0].get("bend"), Mapping):
         use = cands[0]["bend"].get("use", use)
         cycles = cands[0]["bend"].get("required_cycles", cycles)
