@@ -109,17 +109,27 @@ class LineTable:
     def index(self, slots: dict[str, np.ndarray]) -> np.ndarray:
         """Table row of every candidate, from the per-slot option indices (:meth:`Space.slots`)."""
         sig = slots["signal"]
-        slots = _slot_arrays(slots)
-        out = np.zeros(sig.shape[0], np.int64)
+        out = None
         for s, dims in self.dims.items():
-            m = sig == s
             idx = np.full(sig.shape[0], self.offset[s], np.int64)
             stride = 1
             for slot, colno, size in dims:
-                idx += slots[slot][:, colno] * stride
+                d = _digit(slots, slot, colno)
+                idx += d * stride if stride != 1 else d
                 stride *= size
-            out = np.where(m, idx, out)
-        return out
+            out = idx if out is None else np.where(sig == s, idx, out)
+        return out if out is not None else np.zeros(sig.shape[0], np.int64)
+
+
+def _digit(s: dict[str, np.ndarray], slot: str, colno: int) -> np.ndarray:
+    """Option index of one table dimension, per candidate (the columns of :func:`_slot_arrays`)."""
+    if slot in ("cu", "film", "adh"):
+        return s[slot][:, colno]
+    if slot == "dbl":
+        return (s["place"][:, colno] == 2).astype(np.int64)
+    if slot == "cover":
+        return s["cover_top"] if colno == 0 else s["cover_bot"]
+    return s["gap_opt"]
 
 
 def _slot_arrays(s: dict[str, np.ndarray]) -> dict[str, np.ndarray]:
@@ -317,6 +327,7 @@ class Problem:
     objectives: tuple[str, ...]
     constraint_names: list[str] = field(default_factory=list)
     allowed_range: np.ndarray | None = None   # per copper option, strain range allowed for the life limit
+    fast: dict[str, np.ndarray] | None = None  # per-option block sums and per-row line figures (:func:`_fast_tables`)
 
     @property
     def n_var(self) -> int:
@@ -338,6 +349,11 @@ class Problem:
 
     def line_ok(self, row: np.ndarray) -> np.ndarray:
         """True where a table row meets every line constraint (impedance, width, gap, validity)."""
+        if self.fast is not None:
+            return np.take(self.fast["line_ok"], row)
+        return self._line_ok_direct(row)
+
+    def _line_ok_direct(self, row: np.ndarray) -> np.ndarray:
         tb, study = self.table, self.space.study
         ok = (tb.rel_err[row] <= study.line.tolerance) & (tb.width_lo_m[row] <= tb.width_hi_m[row]) & tb.in_range[row]
         if study.line.type in GAP_KINDS:
@@ -381,6 +397,11 @@ class Problem:
         return self._evaluate(x, want_cycles)
 
     def _line_constraints(self, row: np.ndarray) -> dict[str, np.ndarray]:
+        if self.fast is not None:
+            return {c: np.take(self.fast["line_g_" + c], row) for c in self.fast["line_g_names"]}
+        return self._line_constraints_direct(row)
+
+    def _line_constraints_direct(self, row: np.ndarray) -> dict[str, np.ndarray]:
         tb, study = self.table, self.space.study
         out = {
             "impedance": tb.rel_err[row] / study.line.tolerance - 1.0,
@@ -395,15 +416,21 @@ class Problem:
                   slots: dict[str, np.ndarray] | None = None) -> Evaluation:
         sp, study = self.space, self.space.study
         n = x.shape[0]
-        t, e, leaf, slots = sp.mechanics(x, slots)
-        bs = self.strains(t, e, leaf)
-        cols = [cu_col(i) for i in range(sp.n_cu)]
-        cu_peak = np.maximum(np.abs(bs.strain_top[:, cols]), np.abs(bs.strain_bottom[:, cols]))  # (n, N)
+        if self.fast is not None and (study.bend.region == "bonded" or sp.n_cu == 1):
+            slots = sp.slots(x) if slots is None else slots
+            total, cu_peak = self.bonded_copper_strains(slots)
+        else:
+            t, e, leaf, slots = sp.mechanics(x, slots)
+            bs = self.strains(t, e, leaf)
+            cols = [cu_col(i) for i in range(sp.n_cu)]
+            cu_peak = np.maximum(np.abs(bs.strain_top[:, cols]), np.abs(bs.strain_bottom[:, cols]))  # (n, N)
+            total = t.sum(axis=1)
         peak = cu_peak.max(axis=1)
-        rows = np.arange(n)
         signal, cu_opt = slots["signal"], slots["cu"]
-        sig = cu_peak[rows, signal]
-        total = t.sum(axis=1)
+        if len(sp.sig_opts) == 1:
+            sig = cu_peak[:, sp.sig_opts[0]].copy()
+        else:
+            sig = np.choose(signal, [cu_peak[:, i] for i in range(sp.n_cu)])
         row = self.table.index(slots)
         tb = self.table
         need_cycles = want_cycles or "life" in self.objectives
@@ -426,7 +453,15 @@ class Problem:
                 F[:, k] = tb.loss_db_per_m[row]
             elif o == "life":
                 F[:, k] = -np.log10(np.maximum(cycles, 1e-300))
-        F = quantize(F)
+        if self.fast is not None:
+            # the loss column is quantized once per table row (quantize is elementwise)
+            q = [k for k, o in enumerate(self.objectives) if o != "loss"]
+            F[:, q] = quantize(F[:, q])
+            for k, o in enumerate(self.objectives):
+                if o == "loss":
+                    F[:, k] = np.take(self.fast["loss_q"], row)
+        else:
+            F = quantize(F)
         lim = study.limits
         G = np.empty((n, self.n_con))
         line_g = self._line_constraints(row)
@@ -445,6 +480,88 @@ class Problem:
                 rng = strain_range(cu_peak, study.bend.motion)
                 G[:, k] = (rng / self.allowed_range[cu_opt]).max(axis=1) - 1.0
         return Evaluation(F, G, peak, sig, total, row, cycles)
+
+    def bonded_copper_strains(self, slots: dict[str, np.ndarray]) -> tuple[np.ndarray, np.ndarray]:
+        """Total thickness and peak strain of every copper layer of one bonded stack, from the slots.
+
+        The same transformed-section model and exact strain as
+        :func:`strainline.models.bending.bend_strains` (Gere & Timoshenko, *Mechanics of
+        Materials*, composite beams), evaluated on groups instead of layers: a cover, a gap
+        ``[adhesive, film, adhesive]`` or a copper layer contributes its thickness ``T``, its
+        stiffness ``S = sum E t`` and its first moment ``M = sum E t y_c`` about its own bottom face,
+        all but the copper looked up per option code (:func:`_fast_tables`). Stacking the groups
+        from the bottom gives ``y_NA = sum (S_g y_g + M_g) / sum S_g``, and only the copper faces
+        are evaluated: ``|eps| = max(|y_b - y_NA|, |y_t - y_NA|) / (R + y_NA)`` with the bottom
+        face inside, ``/ (R + T - y_NA)`` with the top face inside.
+
+        Parameters
+        ----------
+        slots : dict
+            Per-slot option indices (:meth:`Space.slots`).
+
+        Returns
+        -------
+        total_m : ndarray, (n,)
+            Total stack thickness, m.
+        cu_peak : ndarray, (n, N)
+            Largest strain magnitude over the two faces of each copper layer (fraction), top to
+            bottom.
+        """
+        sp, f = self.space, self.fast
+        b = sp.blocks
+        N = sp.n_cu
+        n = slots["signal"].shape[0]
+        take = np.take
+        ct, cb = slots["cover_top"], slots["cover_bot"]
+        cu, cov, film, adh, place = slots["cu"], slots["cov_val"], slots["film"], slots["adh"], slots["place"]
+        n_adh, n_cov = len(sp.adh_opts), len(sp.cover_opts)
+        fill_flat = b["fill"].ravel()
+        n_col = b["fill"].shape[1]
+        gcode = [(film[:, g] * n_adh + adh[:, g]) * 3 + place[:, g] for g in range(N - 1)]
+        # bottom up: running height y, stiffness S and first moment M
+        y = take(f["cb_T"], cb)
+        S = take(f["cb_S"], cb)
+        M = take(f["cb_M"], cb)
+        ybot, tcu = [None] * N, [None] * N
+        for i in range(N - 1, -1, -1):
+            k = cu[:, i]
+            t = take(b["cu_t"], k)
+            up = ct if i == 0 else n_cov + gcode[i - 1]
+            dn = cb if i == N - 1 else n_cov + gcode[i]
+            fill = take(fill_flat, up * n_col + dn)
+            st = cov[:, i] * (take(b["cu_E"], k) - fill) + fill     # Voigt effective modulus ...
+            st *= t                                                  # ... times thickness
+            S += st
+            M += st * (y + 0.5 * t)
+            ybot[i], tcu[i] = y, t
+            y = y + t
+            if i > 0:
+                g = gcode[i - 1]
+                sg = take(f["gap_S"], g)
+                S += sg
+                M += sg * y
+                M += take(f["gap_M"], g)
+                y += take(f["gap_T"], g)
+        sg = take(f["ct_S"], ct)
+        S += sg
+        M += sg * y
+        M += take(f["ct_M"], ct)
+        y += take(f["ct_T"], ct)
+        total = y
+        with np.errstate(divide="ignore", invalid="ignore"):
+            yna = np.where(S > 0, M / np.where(S > 0, S, 1.0), 0.5 * total)
+            r = self.space.study.bend.inner_radius_mm * MM
+            den = (r + yna) if self.space.study.bend.inside == "bottom" else (r + total - yna)
+            absk = np.abs(1.0 / den)
+        out = np.empty((N, n))
+        for i in range(N):
+            a = ybot[i] - yna
+            c = a + tcu[i]
+            np.abs(a, out=a)
+            np.abs(c, out=c)
+            np.maximum(a, c, out=out[i])
+            out[i] *= absk
+        return total, out.T
 
     def objective_keys(self) -> list[str]:
         return [OBJECTIVE_KEYS[o] for o in self.objectives]
@@ -468,7 +585,37 @@ def build_problem(space: Space, catalog) -> Problem:
         a = space.arr
         allowed = engelmaier_strain_range(lim.min_cycles, a["cu_Df"], a["cu_Su"], a["cu_E"])
         names.append("fatigue_life")
-    return Problem(space, table, tuple(study.objectives), names, allowed)
+    pb = Problem(space, table, tuple(study.objectives), names, allowed)
+    pb.fast = _fast_tables(pb)
+    return pb
+
+
+def _block_sums(t: np.ndarray, e: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Thickness, ``sum E t`` and first moment ``sum E t y_c`` about the block's bottom face of
+    blocks of layers (k, c), columns top to bottom."""
+    t = np.asarray(t, float)
+    e = np.asarray(e, float)
+    T = t.sum(axis=1)
+    below = T[:, None] - np.cumsum(t, axis=1)        # height of each column's bottom face in its block
+    et = e * t
+    return T, et.sum(axis=1), (et * (below + 0.5 * t)).sum(axis=1)
+
+
+def _fast_tables(pb: Problem) -> dict:
+    """Per-option group sums for :meth:`Problem.bonded_copper_strains` and per-row line figures."""
+    b = pb.space.blocks
+    out: dict = {}
+    for key, (t, e) in {"ct": (b["cov_t"], b["cov_E"]), "cb": (b["cov_t_rev"], b["cov_E_rev"]),
+                        "gap": (b["gap_t"], b["gap_E"])}.items():
+        out[key + "_T"], out[key + "_S"], out[key + "_M"] = _block_sums(t, e)
+    rows = np.arange(pb.table.n_rows)
+    g = pb._line_constraints_direct(rows)
+    out["line_g_names"] = list(g)
+    for c, v in g.items():
+        out["line_g_" + c] = np.ascontiguousarray(v, dtype=float)
+    out["line_ok"] = pb._line_ok_direct(rows)
+    out["loss_q"] = quantize(pb.table.loss_db_per_m)
+    return out
 
 
 #: Human wording of each constraint for the "nothing feasible" message.

@@ -178,43 +178,63 @@ class Space:
             return xt[k] if k is not None else zero
 
         sym = self.study.stack.symmetric
-        cu = np.empty((n, N), np.int64)
-        film = np.empty((n, max(N - 1, 0)), np.int64)
-        adh = np.empty_like(film)
-        place = np.empty_like(film)
+        G = max(N - 1, 0)
+        # built layer-major ((N, n) C-order) so every write is contiguous; returned as (n, N)
+        # Fortran-order views whose columns are contiguous for the per-layer readers
+        cu = np.empty((N, n), np.int64)
+        film = np.empty((G, n), np.int64)
+        adh = np.empty((G, n), np.int64)
+        place = np.empty((G, n), np.int64)
         place_tab = np.asarray(self.place_opts, np.int64)
         for i in range(N):
-            cu[:, i] = get(f"copper[{min(i, N - 1 - i) if sym else i}]")
-        for g in range(N - 1):
+            cu[i] = get(f"copper[{min(i, N - 1 - i) if sym else i}]")
+        for g in range(G):
             src = min(g, N - 2 - g) if sym else g
-            film[:, g] = get(f"film[{src}]")
-            adh[:, g] = get(f"adhesive[{src}]")
-            p = np.take(place_tab, get(f"placement[{src}]"))
+            film[g] = get(f"film[{src}]")
+            adh[g] = get(f"adhesive[{src}]")
+            if sym and g == N - 2 - g:
+                place[g] = 2                       # the middle gap of a symmetric stack
+                continue
+            k = col.get(f"placement[{src}]")
+            if k is None:
+                p0 = int(place_tab[0])
+                place[g] = (p0 if p0 == 2 else 1 - p0) if (sym and g != src) else p0
+                continue
+            p = np.take(place_tab, xt[k])
             if sym and g != src:
                 p = np.where(p == 2, 2, 1 - p)     # mirrored gap: below <-> above
-            if sym and g == N - 2 - g:
-                p = np.full(n, 2, np.int64)        # the middle gap of a symmetric stack
-            place[:, g] = p
+            place[g] = p
         cover_top = get("cover[top]")
         cover_bot = cover_top if sym else get("cover[bottom]")
         signal = np.take(np.asarray(self.sig_opts, np.int64), get("signal_layer"))
         gap_opt = get("line_gap")
         cov_tab = np.asarray(self.cov_opts, float)
-        cov_val = np.empty((n, N))
+        cov_val = np.empty((N, n))
         scov = self.study.stack.signal_coverage
+        one_sig = len(self.sig_opts) == 1
         if sym:
             for i in range(N):
-                cov_val[:, i] = np.take(cov_tab, get(f"coverage[{min(i, N - 1 - i)}]"))
+                cov_val[i] = np.take(cov_tab, get(f"coverage[{min(i, N - 1 - i)}]"))
         else:
             # ground j counts the copper layers other than the signal, top to bottom
             C = [np.take(cov_tab, get(f"coverage[{j}]")) for j in range(N - 1)]
             for i in range(N):
-                above = C[min(i, N - 2)]           # i < signal: ground j = i
-                below = C[max(i - 1, 0)]           # i > signal: ground j = i - 1
-                cov_val[:, i] = np.where(i < signal, above, below)
-        cov_val = np.where(np.arange(N)[None, :] == signal[:, None], scov, cov_val)
-        return dict(cu=cu, film=film, adh=adh, place=place, cover_top=cover_top, cover_bot=cover_bot,
-                    signal=signal, gap_opt=gap_opt, cov_val=cov_val)
+                above = C[min(i, N - 2)] if N > 1 else None      # i < signal: ground j = i
+                below = C[max(i - 1, 0)] if N > 1 else None      # i > signal: ground j = i - 1
+                if N == 1:
+                    cov_val[i] = 0.0
+                elif one_sig:
+                    cov_val[i] = above if i < self.sig_opts[0] else below
+                else:
+                    np.copyto(cov_val[i], np.where(i < signal, above, below))
+        for i in range(N):
+            if one_sig:
+                if self.sig_opts[0] == i:
+                    cov_val[i] = scov
+            else:
+                np.copyto(cov_val[i], scov, where=signal == i)
+        return dict(cu=cu.T, film=film.T, adh=adh.T, place=place.T, cover_top=cover_top, cover_bot=cover_bot,
+                    signal=signal, gap_opt=gap_opt, cov_val=cov_val.T)
 
     def decode(self, x: np.ndarray) -> Decoded:
         """Decode variable vectors (n, n_var) into (n, L) layer arrays."""

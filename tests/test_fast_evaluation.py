@@ -1,0 +1,97 @@
+"""The bonded fast path of the problem evaluation equals the general bend model.
+
+``Problem.bonded_copper_strains`` stacks per-option group sums (thickness, sum E t, first moment)
+instead of building (n, L) layer arrays; it must give the same copper strains as
+:func:`strainline.models.bending.bend_strains` on the decoded layers (exact strain
+(y - y_NA)/(R + y_NA), transformed section: Gere & Timoshenko, *Mechanics of Materials*, composite
+beams) to 1e-12, for both inside faces, hatched grounds, plane strain and symmetric stacks.
+"""
+from __future__ import annotations
+
+import copy
+import dataclasses
+
+import numpy as np
+import pytest
+
+from strainline.models.bending import bend_strains
+from strainline.models.units import MM
+from strainline.optimizer.catalog import load_catalog
+from strainline.optimizer.problem import build_problem
+from strainline.optimizer.space import build_space, cu_col
+from strainline.optimizer.study import validate_study
+
+CAT = load_catalog()
+
+BASE = {
+    "name": "fast-path",
+    "line": {"type": "microstrip", "target_ohm": 50, "width_range_um": [50, 500], "frequency_ghz": 2},
+    "bend": {"inner_radius_mm": 1.5, "use": "dynamic", "cycles": 5000},
+    "stack": {"copper_layers": 3, "copper_weights": ["1/4oz", "1/2oz", "1oz"],
+              "copper_types": ["rolled-annealed", "electrodeposited"],
+              "dielectric": ["polyimide-film", "lcp-film"], "dielectric_thickness_um": [12.5, 50],
+              "adhesive": ["none", "acrylic-adhesive", "epoxy-adhesive"], "adhesive_thickness_um": [15],
+              "coverlay": ["polyimide-coverlay-acrylic", "polyimide-coverlay-epoxy", "none"],
+              "ground_coverage": [1.0, 0.5, 0.25]},
+    "limits": {"total_thickness_um": 300, "min_cycles": 2000},
+    "objectives": ["signal_strain", "thickness", "loss"],
+}
+
+CASES = [
+    {},
+    {"bend": {"inside": "top"}},
+    {"bend": {"plane_strain": True, "inside": "top"}},
+    {"stack": {"symmetric": True}},
+    {"stack": {"symmetric": True, "copper_layers": 4}, "bend": {"inside": "top"}},
+    {"stack": {"copper_layers": 2}},
+    {"stack": {"copper_layers": 5}, "line": {"type": "stripline"}},
+    {"line": {"type": "coupled-microstrip", "target_ohm": 90, "gap_um": [75, 100, 150]},
+     "objectives": ["peak_strain", "thickness", "life"]},
+]
+
+
+def problem(over):
+    d = copy.deepcopy(BASE)
+    for k, v in over.items():
+        if isinstance(v, dict):
+            d[k].update(v)
+        else:
+            d[k] = v
+    sp = build_space(validate_study(d, CAT), CAT)
+    return build_problem(sp, CAT)
+
+
+@pytest.mark.parametrize("over", CASES)
+def test_bonded_fast_path_equals_bend_strains(over):
+    pb = problem(over)
+    sp, bend = pb.space, pb.space.study.bend
+    x = sp.repair(np.random.default_rng(7).integers(0, sp.sizes, (3000, len(sp.sizes))))
+    total, cu_peak = pb.bonded_copper_strains(sp.slots(x))
+    t, e, leaf, _ = sp.mechanics(x)
+    assert leaf is None
+    bs = bend_strains(t, e, bend.inner_radius_mm * MM, inside_bottom=(bend.inside == "bottom"))
+    cols = [cu_col(i) for i in range(sp.n_cu)]
+    ref = np.maximum(np.abs(bs.strain_top[:, cols]), np.abs(bs.strain_bottom[:, cols]))
+    assert ref.max() > 1e-3                 # strains large enough for the comparison to mean something
+    np.testing.assert_allclose(cu_peak, ref, rtol=1e-12, atol=0)
+    np.testing.assert_allclose(total, t.sum(axis=1), rtol=1e-12, atol=0)
+    # hatched grounds are present in the batch (coverage below 1 on some non-signal copper)
+    assert (sp.slots(x)["cov_val"] < 1).any()
+
+
+@pytest.mark.parametrize("over", [CASES[0], CASES[2], CASES[7]])
+def test_fast_evaluation_equals_the_general_evaluation(over):
+    pb = problem(over)
+    slow = dataclasses.replace(pb, fast=None)
+    x = pb.space.repair(np.random.default_rng(3).integers(0, pb.space.sizes, (4000, pb.n_var)))
+    a, b = pb.evaluate(x, want_cycles=True), slow.evaluate(x, want_cycles=True)
+    np.testing.assert_allclose(a.peak_strain, b.peak_strain, rtol=1e-12, atol=0)
+    np.testing.assert_allclose(a.signal_strain, b.signal_strain, rtol=1e-12, atol=0)
+    np.testing.assert_allclose(a.cycles, b.cycles, rtol=1e-9, atol=0)
+    np.testing.assert_array_equal(a.line_row, b.line_row)
+    # objectives are rounded to 12 significant digits: a 1e-16 difference may move one quantum
+    np.testing.assert_allclose(a.F, b.F, rtol=2e-11, atol=0)
+    np.testing.assert_allclose(a.G, b.G, rtol=1e-10, atol=1e-15)
+    np.testing.assert_array_equal(a.feasible, b.feasible)
+    pa, pbb = pb.evaluate(x, prune=True), slow.evaluate(x, prune=True)
+    np.testing.assert_array_equal(pa.feasible, pbb.feasible)
