@@ -305,7 +305,8 @@ def quantize(F: np.ndarray, digits: int = 12) -> np.ndarray:
 class Evaluation:
     """Objectives and constraints of a batch, plus the figures the front reports."""
 
-    F: np.ndarray                 # (n, n_obj), minimized, edge units (life as -log10 cycles)
+    F: np.ndarray                 # (n, n_obj), minimized, edge units (life as -log10 cycles);
+    #                               feasible rows rounded to 12 significant digits (:func:`quantize`)
     G: np.ndarray                 # (n, n_con), feasible where all <= 0
     peak_strain: np.ndarray       # (n,) fraction, max |strain| over copper faces
     signal_strain: np.ndarray     # (n,) fraction
@@ -377,8 +378,8 @@ class Problem:
                 sub = {k: v[ok] for k, v in slots.items()}
                 full = self._evaluate(x[ok], want_cycles, sub) if ok.any() else None
                 n = x.shape[0]
-                F = np.full((n, self.n_obj), np.nan)
-                G = np.zeros((n, self.n_con))
+                F = np.full((n, self.n_obj), np.nan, order="F")
+                G = np.zeros((n, self.n_con), order="F")
                 row = self.table.index(slots)
                 lim = self._line_constraints(row)
                 for k, c in enumerate(self.constraint_names):
@@ -429,6 +430,9 @@ class Problem:
         signal, cu_opt = slots["signal"], slots["cu"]
         if len(sp.sig_opts) == 1:
             sig = cu_peak[:, sp.sig_opts[0]].copy()
+        elif len(sp.sig_opts) == 2:
+            s0, s1 = sp.sig_opts
+            sig = np.where(signal == s0, cu_peak[:, s0], cu_peak[:, s1])
         else:
             sig = np.choose(signal, [cu_peak[:, i] for i in range(sp.n_cu)])
         row = self.table.index(slots)
@@ -441,7 +445,7 @@ class Problem:
             rng = strain_range(cu_peak, study.bend.motion)
             cyc = engelmaier_cycles(rng, a["cu_Df"][cu], a["cu_Su"][cu], a["cu_E"][cu])
             cycles = cyc.min(axis=1)
-        F = np.empty((n, self.n_obj))
+        F = np.empty((n, self.n_obj), order="F")   # columns contiguous
         for k, o in enumerate(self.objectives):
             if o == "peak_strain":
                 F[:, k] = peak * 100.0
@@ -453,17 +457,8 @@ class Problem:
                 F[:, k] = tb.loss_db_per_m[row]
             elif o == "life":
                 F[:, k] = -np.log10(np.maximum(cycles, 1e-300))
-        if self.fast is not None:
-            # the loss column is quantized once per table row (quantize is elementwise)
-            q = [k for k, o in enumerate(self.objectives) if o != "loss"]
-            F[:, q] = quantize(F[:, q])
-            for k, o in enumerate(self.objectives):
-                if o == "loss":
-                    F[:, k] = np.take(self.fast["loss_q"], row)
-        else:
-            F = quantize(F)
         lim = study.limits
-        G = np.empty((n, self.n_con))
+        G = np.empty((n, self.n_con), order="F")
         line_g = self._line_constraints(row)
         for k, c in enumerate(self.constraint_names):
             if c in line_g:
@@ -479,6 +474,17 @@ class Problem:
             elif c == "fatigue_life":
                 rng = strain_range(cu_peak, study.bend.motion)
                 G[:, k] = (rng / self.allowed_range[cu_opt]).max(axis=1) - 1.0
+        # feasible rows (the only ones a front keeps) are rounded, so equal designs merge
+        feas = np.flatnonzero(np.all(G <= 0, axis=1)) if self.n_con else np.arange(n)
+        if self.fast is not None:
+            # the loss column comes quantized per table row (quantize is elementwise)
+            q = [k for k, o in enumerate(self.objectives) if o != "loss"]
+            F[np.ix_(feas, q)] = quantize(F[np.ix_(feas, q)])
+            for k, o in enumerate(self.objectives):
+                if o == "loss":
+                    F[:, k] = np.take(self.fast["loss_q"], row)
+        else:
+            F[feas] = quantize(F[feas])
         return Evaluation(F, G, peak, sig, total, row, cycles)
 
     def bonded_copper_strains(self, slots: dict[str, np.ndarray]) -> tuple[np.ndarray, np.ndarray]:
@@ -549,7 +555,10 @@ class Problem:
         y += take(f["ct_T"], ct)
         total = y
         with np.errstate(divide="ignore", invalid="ignore"):
-            yna = np.where(S > 0, M / np.where(S > 0, S, 1.0), 0.5 * total)
+            if f["stiff"]:
+                yna = M / S          # every row has stiffness: the signal copper (coverage > 0)
+            else:
+                yna = np.where(S > 0, M / np.where(S > 0, S, 1.0), 0.5 * total)
             r = self.space.study.bend.inner_radius_mm * MM
             den = (r + yna) if self.space.study.bend.inside == "bottom" else (r + total - yna)
             absk = np.abs(1.0 / den)
@@ -615,6 +624,8 @@ def _fast_tables(pb: Problem) -> dict:
         out["line_g_" + c] = np.ascontiguousarray(v, dtype=float)
     out["line_ok"] = pb._line_ok_direct(rows)
     out["loss_q"] = quantize(pb.table.loss_db_per_m)
+    out["stiff"] = bool(np.all(b["cu_t"] > 0) and np.all(b["cu_E"] > 0)
+                        and pb.space.study.stack.signal_coverage > 0)
     return out
 
 

@@ -115,11 +115,19 @@ class Archive:
         G = np.asarray(G, float)
         self.seen += len(X)
         if G.shape[1]:
-            feas = np.all(G <= 0, axis=1) & np.all(np.isfinite(F), axis=1)
-            viol = (G > 0).sum(axis=0)
+            # column by column: fast for any memory order (numpy reduces short rows slowly)
+            feas = G[:, 0] <= 0
+            for k in range(1, G.shape[1]):
+                feas &= G[:, k] <= 0
+            for k in range(F.shape[1]):
+                feas &= np.isfinite(F[:, k])
+            viol = np.array([np.count_nonzero(G[:, k] > 0) for k in range(G.shape[1])], dtype=np.int64)
             self.violated = viol if self.violated is None else self.violated + viol
             if not feas.all():
-                cv = np.where(feas[:, None], 0.0, np.maximum(G, 0.0)).sum(axis=1)
+                # total violation; a feasible row has every G <= 0, so its sum is 0 before the inf
+                cv = np.maximum(G[:, 0], 0.0)
+                for k in range(1, G.shape[1]):
+                    cv += np.maximum(G[:, k], 0.0)
                 cv = np.where(feas, np.inf, cv)
                 k = int(np.argmin(cv))
                 if cv[k] < self.near_cv:
@@ -230,6 +238,39 @@ def _digits(index: np.ndarray, sizes: np.ndarray) -> np.ndarray:
     return out
 
 
+class _ChunkDigits:
+    """Mixed-radix digits of consecutive index ranges ``[start, start + chunk)``, equal to
+    :func:`_digits` of ``np.arange(start, start + chunk)``.
+
+    The chunk is rounded to a multiple of ``P = prod(sizes[:m])`` (the fastest m variables, P <=
+    the requested chunk), so for a chunk starting at a multiple of ``P`` those m digits follow the
+    same pattern in every chunk (computed once); the slower digits change only every ``P`` rows
+    and come from ``chunk / P`` divisions, repeated.
+    """
+
+    def __init__(self, sizes: np.ndarray, chunk: int) -> None:
+        self.sizes = np.asarray(sizes, np.int64)
+        p, m = 1, 0
+        while m < self.sizes.size and p * int(self.sizes[m]) <= chunk:
+            p *= int(self.sizes[m])
+            m += 1
+        self.P, self.m = p, m
+        self.chunk = max(chunk // p, 1) * p
+        self.low = _digits(np.arange(self.chunk, dtype=np.int64), self.sizes[:m])
+
+    def __call__(self, start: int, stop: int) -> np.ndarray:
+        n = stop - start
+        out = np.empty((n, self.sizes.size), np.int64, order="F")
+        out[:, :self.m] = self.low[:n]
+        if self.m < self.sizes.size:
+            q0 = start // self.P
+            q = np.arange(q0, q0 + -(-n // self.P), dtype=np.int64)
+            high = _digits(q, self.sizes[self.m:])
+            for k in range(high.shape[1]):
+                out[:, self.m + k] = np.repeat(high[:, k], self.P)[:n]
+        return out
+
+
 def exhaustive(evaluate: Evaluator, sizes: np.ndarray, n_obj: int, chunk: int = CHUNK,
                progress: Any = None) -> SearchResult:
     """Evaluate every point of the mixed-radix space ``sizes`` in chunks; exact front.
@@ -252,9 +293,10 @@ def exhaustive(evaluate: Evaluator, sizes: np.ndarray, n_obj: int, chunk: int = 
         raise ValueError("space too large to enumerate")
     t0 = time.perf_counter()
     arch = Archive(n_obj, sizes.size)
+    digits = _ChunkDigits(sizes, chunk)
+    chunk = digits.chunk
     for start in range(0, total, chunk):
-        idx = np.arange(start, min(start + chunk, total), dtype=np.int64)
-        x = _digits(idx, sizes)
+        x = digits(start, min(start + chunk, total))
         F, G = evaluate(x)
         arch.add(x, F, G)
         if progress is not None:

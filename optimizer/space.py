@@ -211,28 +211,32 @@ class Space:
         cov_tab = np.asarray(self.cov_opts, float)
         cov_val = np.empty((N, n))
         scov = self.study.stack.signal_coverage
-        one_sig = len(self.sig_opts) == 1
         if sym:
             for i in range(N):
                 cov_val[i] = np.take(cov_tab, get(f"coverage[{min(i, N - 1 - i)}]"))
-        else:
-            # ground j counts the copper layers other than the signal, top to bottom
-            C = [np.take(cov_tab, get(f"coverage[{j}]")) for j in range(N - 1)]
             for i in range(N):
-                above = C[min(i, N - 2)] if N > 1 else None      # i < signal: ground j = i
-                below = C[max(i - 1, 0)] if N > 1 else None      # i > signal: ground j = i - 1
-                if N == 1:
-                    cov_val[i] = 0.0
-                elif one_sig:
-                    cov_val[i] = above if i < self.sig_opts[0] else below
-                else:
-                    np.copyto(cov_val[i], np.where(i < signal, above, below))
-        for i in range(N):
-            if one_sig:
-                if self.sig_opts[0] == i:
-                    cov_val[i] = scov
-            else:
                 np.copyto(cov_val[i], scov, where=signal == i)
+        elif N == 1:
+            cov_val[0] = scov
+        else:
+            # ground j counts the copper layers other than the signal, top to bottom: copper i is
+            # ground i above the signal and ground i - 1 below it
+            C = [np.take(cov_tab, get(f"coverage[{j}]")) for j in range(N - 1)]
+
+            def value(i: int, s: int):
+                return scov if i == s else (C[i] if i < s else C[i - 1])
+
+            sig_opts = self.sig_opts
+            first = signal == sig_opts[0] if len(sig_opts) > 1 else None
+            for i in range(N):
+                if len(sig_opts) == 1:
+                    cov_val[i] = value(i, sig_opts[0])
+                elif len(sig_opts) == 2:
+                    np.copyto(cov_val[i], np.where(first, value(i, sig_opts[0]), value(i, sig_opts[1])))
+                else:
+                    cov_val[i] = value(i, sig_opts[-1])
+                    for s_ in sig_opts[:-1]:
+                        np.copyto(cov_val[i], value(i, s_), where=signal == s_)
         return dict(cu=cu.T, film=film.T, adh=adh.T, place=place.T, cover_top=cover_top, cover_bot=cover_bot,
                     signal=signal, gap_opt=gap_opt, cov_val=cov_val.T)
 

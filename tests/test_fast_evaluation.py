@@ -95,3 +95,18 @@ def test_fast_evaluation_equals_the_general_evaluation(over):
     np.testing.assert_array_equal(a.feasible, b.feasible)
     pa, pbb = pb.evaluate(x, prune=True), slow.evaluate(x, prune=True)
     np.testing.assert_array_equal(pa.feasible, pbb.feasible)
+
+
+def test_chunk_digits_equal_numpy_unravel_index():
+    # Reference: numpy.unravel_index with order="F" gives mixed-radix digits, first variable fastest.
+    from strainline.optimizer.search import _ChunkDigits
+
+    rng = np.random.default_rng(5)
+    for _ in range(60):
+        sizes = rng.integers(1, 9, rng.integers(1, 7))
+        total = int(np.prod(sizes))
+        dig = _ChunkDigits(sizes, int(rng.integers(1, 300)))
+        assert 1 <= dig.chunk
+        got = np.concatenate([dig(a, min(a + dig.chunk, total)) for a in range(0, total, dig.chunk)])
+        ref = np.stack(np.unravel_index(np.arange(total), tuple(int(s) for s in sizes), order="F"), axis=1)
+        np.testing.assert_array_equal(got, ref)
