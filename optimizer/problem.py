@@ -355,7 +355,7 @@ class Problem:
     def line_ok(self, row: np.ndarray) -> np.ndarray:
         """True where a table row meets every line constraint (impedance, width, gap, validity)."""
         if self.fast is not None:
-            return np.take(self.fast["line_ok"], row)
+            return self.fast["line_ok"].take(row, mode="clip")     # rows are valid by construction
         return self._line_ok_direct(row)
 
     def _line_ok_direct(self, row: np.ndarray) -> np.ndarray:
@@ -372,6 +372,9 @@ class Problem:
         constraint (the cheap ones, from the table); the others keep their line constraint values
         and get 0 in the mechanical constraint columns and nan objectives (they are infeasible
         either way, so the exact front is unchanged).
+
+        ``x`` must lie on the grid of the space (``0 <= x_k < n_k``; :meth:`Space.repair` puts
+        real vectors there): option codes derived from it index the precomputed tables unchecked.
         """
         x = np.asarray(x, np.int64)
         n = x.shape[0]
@@ -421,7 +424,7 @@ class Problem:
 
     def _line_constraints(self, row: np.ndarray) -> dict[str, np.ndarray]:
         if self.fast is not None:
-            return {c: np.take(self.fast["line_g_" + c], row) for c in self.fast["line_g_names"]}
+            return {c: self.fast["line_g_" + c].take(row, mode="clip") for c in self.fast["line_g_names"]}
         return self._line_constraints_direct(row)
 
     def _line_constraints_direct(self, row: np.ndarray) -> dict[str, np.ndarray]:
@@ -498,7 +501,7 @@ class Problem:
                 worst = None
                 for i in range(sp.n_cu):
                     r_i = strain_range(cu_peak[:, i], study.bend.motion)
-                    r_i /= np.take(self.allowed_range, cu_opt[:, i])
+                    r_i /= self.allowed_range.take(cu_opt[:, i], mode="clip")
                     worst = r_i if worst is None else np.maximum(worst, r_i, out=worst)
                 G[:, k] = worst - 1.0
         # feasible rows (the only ones a front keeps) are rounded, so equal designs merge
@@ -509,7 +512,7 @@ class Problem:
             F[np.ix_(feas, q)] = quantize(F[np.ix_(feas, q)])
             for k, o in enumerate(self.objectives):
                 if o == "loss":
-                    F[:, k] = np.take(self.fast["loss_q"], row)
+                    F[:, k] = self.fast["loss_q"].take(row, mode="clip")
         else:
             F[feas] = quantize(F[feas])
         return Evaluation(F, G, peak, sig, total, row, cycles)
@@ -555,7 +558,12 @@ class Problem:
         b = sp.blocks
         N = sp.n_cu
         n = slots["signal"].shape[0]
-        take = np.take
+
+        def take(table: np.ndarray, index: np.ndarray) -> np.ndarray:
+            # option codes are in range by construction (x on the grid); "clip" skips numpy's
+            # per-element bounds check, which costs as much as the gather itself
+            return table.take(index, mode="clip")
+
         ct, cb = slots["cover_top"], slots["cover_bot"]
         cu, cov, film, adh, place = slots["cu"], slots["cov_val"], slots["film"], slots["adh"], slots["place"]
         n_adh, n_cov = len(sp.adh_opts), len(sp.cover_opts)

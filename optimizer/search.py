@@ -76,11 +76,14 @@ def _nd_blocked(S: np.ndarray) -> np.ndarray:
     n = S.shape[0]
     keep = np.zeros(n, bool)
     alive = np.arange(n)
-    sub = S
+    cols = [np.ascontiguousarray(S[:, k]) for k in range(S.shape[1])]   # tested column by column
     while len(alive):
         keep[alive[0]] = True
-        d = np.all(sub >= sub[0], axis=1)     # includes the row itself
-        alive, sub = alive[~d], sub[~d]
+        d = cols[0] >= cols[0][0]             # includes the row itself
+        for k in range(1, len(cols)):
+            d &= cols[k] >= cols[k][0]
+        rest = ~d
+        alive, cols = alive[rest], [c[rest] for c in cols]
     return keep
 
 
@@ -165,12 +168,16 @@ def _dominated_by(A: np.ndarray, P: np.ndarray) -> np.ndarray:
     span = np.ptp(P, axis=0)
     order = np.argsort(((P - P.min(axis=0)) / np.where(span > 0, span, 1.0)).sum(axis=1))
     alive = np.arange(len(A))
-    sub = A
+    cols = [np.ascontiguousarray(A[:, k]) for k in range(A.shape[1])]   # tested column by column
     for pi in order:
-        d = np.all(sub >= P[pi], axis=1)
+        p = P[pi]
+        d = cols[0] >= p[0]
+        for k in range(1, len(cols)):
+            d &= cols[k] >= p[k]
         if d.any():
             dom[alive[d]] = True
-            alive, sub = alive[~d], sub[~d]
+            keep = ~d
+            alive, cols = alive[keep], [c[keep] for c in cols]
             if not len(alive):
                 break
     return dom
