@@ -333,6 +333,10 @@ class Problem:
     constraint_names: list[str] = field(default_factory=list)
     allowed_range: np.ndarray | None = None   # per copper option, strain range allowed for the life limit
     fast: dict[str, np.ndarray] | None = None  # per-option block sums and per-row line figures (:func:`_fast_tables`)
+    #: Use the group-sum path for unbonded bend regions too (equal to the layer path to ~1e-14, but
+    #: not bit-identical, which steers a seeded evolutionary run elsewhere; off until the studies'
+    #: reference runs are re-recorded with it).
+    fast_unbonded: bool = False
 
     @property
     def n_var(self) -> int:
@@ -442,9 +446,10 @@ class Problem:
                   slots: dict[str, np.ndarray] | None = None) -> Evaluation:
         sp, study = self.space, self.space.study
         n = x.shape[0]
-        if self.fast is not None and (study.bend.region == "bonded" or sp.n_cu == 1):
+        if self.fast is not None and (study.bend.region == "bonded" or sp.n_cu == 1
+                                      or (self.fast_unbonded and self.fast["stiff_leaves"])):
             slots = sp.slots(x) if slots is None else slots
-            total, cu_peak = self.bonded_copper_strains(slots)
+            total, cu_peak = self.copper_strains(slots)
         else:
             t, e, leaf, slots = sp.mechanics(x, slots)
             bs = self.strains(t, e, leaf)
@@ -517,8 +522,8 @@ class Problem:
             F[feas] = quantize(F[feas])
         return Evaluation(F, G, peak, sig, total, row, cycles)
 
-    def bonded_copper_strains(self, slots: dict[str, np.ndarray]) -> tuple[np.ndarray, np.ndarray]:
-        """Total thickness and peak strain of every copper layer of one bonded stack, from the slots.
+    def copper_strains(self, slots: dict[str, np.ndarray]) -> tuple[np.ndarray, np.ndarray]:
+        """Total thickness and peak strain of every copper layer, from the slots (bonded or unbonded).
 
         The same transformed-section model and exact strain as
         :func:`strainline.models.bending.bend_strains` (Gere & Timoshenko, *Mechanics of
@@ -529,6 +534,11 @@ class Problem:
         from the bottom gives ``y_NA = sum (S_g y_g + M_g) / sum S_g``, and only the copper faces
         are evaluated: ``|eps| = max(|y_b - y_NA|, |y_t - y_NA|) / (R + y_NA)`` with the bottom
         face inside, ``/ (R + T - y_NA)`` with the top face inside.
+
+        Unbonded bend region: the gaps not bordering the signal copper are air (as in
+        :meth:`Space.mechanics`); the running sums restart above each, and every copper layer
+        takes the neutral axis of its own leaf (heights stay global, as in ``bend_strains``).
+        Used only when every leaf is stiff (every coverage option above 0).
 
         Parameters
         ----------
@@ -546,14 +556,14 @@ class Problem:
         n = slots["signal"].shape[0]
         N = self.space.n_cu
         if n <= BLOCK:
-            return self._bonded_rows(slots)
+            return self._strain_rows(slots)
         total, out = np.empty(n), np.empty((N, n))
         for a in range(0, n, BLOCK):            # row blocks whose temporaries stay in cache
             sub = {k: v[a:a + BLOCK] for k, v in slots.items()}
-            total[a:a + BLOCK], out[:, a:a + BLOCK] = self._bonded_rows(sub, transposed=True)
+            total[a:a + BLOCK], out[:, a:a + BLOCK] = self._strain_rows(sub, transposed=True)
         return total, out.T
 
-    def _bonded_rows(self, slots: dict[str, np.ndarray], transposed: bool = False):
+    def _strain_rows(self, slots: dict[str, np.ndarray], transposed: bool = False):
         sp, f = self.space, self.fast
         b = sp.blocks
         N = sp.n_cu
@@ -575,6 +585,12 @@ class Problem:
         S = take(f["cb_S"], cb)
         M = take(f["cb_M"], cb)
         ybot, tcu = [None] * N, [None] * N
+        unbonded = sp.study.bend.region == "unbonded" and N > 1
+        if unbonded:
+            # gaps not bordering the signal copper are air (Space._leaves): each closes a leaf
+            sig = slots["signal"]
+            air = [(sig != g) & (sig != g + 1) for g in range(N - 1)]
+            closed: list = [None] * (N - 1)          # (S, M) of the leaf ending below air gap g
         for i in range(N - 1, -1, -1):
             k = cu[:, i]
             t = take(b["cu_t"], k)
@@ -587,7 +603,14 @@ class Problem:
             M += st * (y + 0.5 * t)
             ybot[i], tcu[i] = y, t
             y = y + t
-            if i > 0:
+            if i > 0 and unbonded:
+                g = gcode[i - 1]
+                closed[i - 1] = (S, M)
+                sg = take(f["gap_S"], g)
+                S = np.where(air[i - 1], 0.0, S + sg)
+                M = np.where(air[i - 1], 0.0, M + (sg * y + take(f["gap_M"], g)))
+                y += take(f["gap_T"], g)
+            elif i > 0:
                 g = gcode[i - 1]
                 sg = take(f["gap_S"], g)
                 S += sg
@@ -600,16 +623,30 @@ class Problem:
         M += take(f["ct_M"], ct)
         y += take(f["ct_T"], ct)
         total = y
-        with np.errstate(divide="ignore", invalid="ignore"):
-            if f["stiff"]:
-                yna = M / S          # every row has stiffness: the signal copper (coverage > 0)
-            else:
-                yna = np.where(S > 0, M / np.where(S > 0, S, 1.0), 0.5 * total)
-            r = self.space.study.bend.inner_radius_mm * MM
-            den = (r + yna) if self.space.study.bend.inside == "bottom" else (r + total - yna)
-            absk = np.abs(1.0 / den)
+        r = self.space.study.bend.inner_radius_mm * MM
+        bottom_inside = self.space.study.bend.inside == "bottom"
+        if unbonded:
+            # top down: copper i shares copper i-1's leaf unless the gap between them is air
+            leaf_S, leaf_M = [S], [M]
+            for i in range(1, N):
+                cs, cm = closed[i - 1]
+                leaf_S.append(np.where(air[i - 1], cs, leaf_S[-1]))
+                leaf_M.append(np.where(air[i - 1], cm, leaf_M[-1]))
+            with np.errstate(divide="ignore", invalid="ignore"):
+                yna_i = [m / s_ for s_, m in zip(leaf_S, leaf_M)]    # every leaf holds stiff copper
+                absk_i = [np.abs(1.0 / ((r + v) if bottom_inside else (r + total - v))) for v in yna_i]
+        else:
+            with np.errstate(divide="ignore", invalid="ignore"):
+                if f["stiff"]:
+                    yna = M / S          # every row has stiffness: the signal copper (coverage > 0)
+                else:
+                    yna = np.where(S > 0, M / np.where(S > 0, S, 1.0), 0.5 * total)
+                den = (r + yna) if bottom_inside else (r + total - yna)
+                absk = np.abs(1.0 / den)
+            yna_i, absk_i = [yna] * N, [absk] * N
         out = np.empty((N, n))
         for i in range(N):
+            yna, absk = yna_i[i], absk_i[i]
             a = ybot[i] - yna
             c = a + tcu[i]
             np.abs(a, out=a)
@@ -657,7 +694,7 @@ def _block_sums(t: np.ndarray, e: np.ndarray) -> tuple[np.ndarray, np.ndarray, n
 
 
 def _fast_tables(pb: Problem) -> dict:
-    """Per-option group sums for :meth:`Problem.bonded_copper_strains` and per-row line figures."""
+    """Per-option group sums for :meth:`Problem.copper_strains` and per-row line figures."""
     b = pb.space.blocks
     out: dict = {}
     for key, (t, e) in {"ct": (b["cov_t"], b["cov_E"]), "cb": (b["cov_t_rev"], b["cov_E_rev"]),
@@ -672,6 +709,8 @@ def _fast_tables(pb: Problem) -> dict:
     out["loss_q"] = quantize(pb.table.loss_db_per_m)
     out["stiff"] = bool(np.all(b["cu_t"] > 0) and np.all(b["cu_E"] > 0)
                         and pb.space.study.stack.signal_coverage > 0)
+    # unbonded leaves: every leaf holds a copper layer, stiff when every coverage option is > 0
+    out["stiff_leaves"] = out["stiff"] and bool(np.all(np.asarray(pb.space.cov_opts) > 0))
     return out
 
 

@@ -1,10 +1,11 @@
 """The bonded fast path of the problem evaluation equals the general bend model.
 
-``Problem.bonded_copper_strains`` stacks per-option group sums (thickness, sum E t, first moment)
+``Problem.copper_strains`` stacks per-option group sums (thickness, sum E t, first moment)
 instead of building (n, L) layer arrays; it must give the same copper strains as
 :func:`strainline.models.bending.bend_strains` on the decoded layers (exact strain
 (y - y_NA)/(R + y_NA), transformed section: Gere & Timoshenko, *Mechanics of Materials*, composite
-beams) to 1e-12, for both inside faces, hatched grounds, plane strain and symmetric stacks.
+beams) to 1e-12, for both inside faces, hatched grounds, plane strain, symmetric stacks and unbonded
+bend regions (each leaf about its own neutral axis).
 """
 from __future__ import annotations
 
@@ -47,6 +48,10 @@ CASES = [
     {"stack": {"copper_layers": 5}, "line": {"type": "stripline"}},
     {"line": {"type": "coupled-microstrip", "target_ohm": 90, "gap_um": [75, 100, 150]},
      "objectives": ["peak_strain", "thickness", "life"]},
+    {"bend": {"region": "unbonded"}, "stack": {"copper_layers": 4}},
+    {"bend": {"region": "unbonded", "inside": "top"}, "stack": {"copper_layers": 5},
+     "line": {"type": "stripline"}},
+    {"bend": {"region": "unbonded", "plane_strain": True}, "stack": {"copper_layers": 4, "symmetric": True}},
 ]
 
 
@@ -62,14 +67,14 @@ def problem(over):
 
 
 @pytest.mark.parametrize("over", CASES)
-def test_bonded_fast_path_equals_bend_strains(over):
+def test_fast_path_equals_bend_strains(over):
     pb = problem(over)
     sp, bend = pb.space, pb.space.study.bend
     x = sp.repair(np.random.default_rng(7).integers(0, sp.sizes, (3000, len(sp.sizes))))
-    total, cu_peak = pb.bonded_copper_strains(sp.slots(x))
+    total, cu_peak = pb.copper_strains(sp.slots(x))
     t, e, leaf, _ = sp.mechanics(x)
-    assert leaf is None
-    bs = bend_strains(t, e, bend.inner_radius_mm * MM, inside_bottom=(bend.inside == "bottom"))
+    assert (leaf is None) == (bend.region == "bonded")
+    bs = bend_strains(t, e, bend.inner_radius_mm * MM, inside_bottom=(bend.inside == "bottom"), leaf=leaf)
     cols = [cu_col(i) for i in range(sp.n_cu)]
     ref = np.maximum(np.abs(bs.strain_top[:, cols]), np.abs(bs.strain_bottom[:, cols]))
     assert ref.max() > 1e-3                 # strains large enough for the comparison to mean something
@@ -79,9 +84,9 @@ def test_bonded_fast_path_equals_bend_strains(over):
     assert (sp.slots(x)["cov_val"] < 1).any()
 
 
-@pytest.mark.parametrize("over", [CASES[0], CASES[2], CASES[7]])
+@pytest.mark.parametrize("over", [CASES[0], CASES[2], CASES[7], CASES[9]])
 def test_fast_evaluation_equals_the_general_evaluation(over):
-    pb = problem(over)
+    pb = dataclasses.replace(problem(over), fast_unbonded=True)
     slow = dataclasses.replace(pb, fast=None)
     x = pb.space.repair(np.random.default_rng(3).integers(0, pb.space.sizes, (4000, pb.n_var)))
     a, b = pb.evaluate(x, want_cycles=True), slow.evaluate(x, want_cycles=True)
