@@ -118,6 +118,13 @@ def main() -> None:
     rate_g, feas_g = bench_batch(general, repeat=1)
     print(f"  general path (decode to (n, L) layer arrays + bend_strains): {rate_g:,.0f} candidates/s "
           f"({feas_g:,} feasible)")
+    ub = {**THREE_CU, "bend": {**THREE_CU["bend"], "region": "unbonded"},
+          "stack": {**THREE_CU["stack"], "copper_layers": 4}}
+    pb_u, _ = problem_of(ub)
+    rate_u, _ = bench_batch(pb_u, n_total=300_000, repeat=1)
+    rate_uf, _ = bench_batch(dataclasses.replace(pb_u, fast_unbonded=True), n_total=300_000, repeat=1)
+    print(f"4-copper unbonded study: {rate_u:,.0f} candidates/s (layer path, the default), "
+          f"{rate_uf:,.0f} candidates/s with Problem.fast_unbonded")
     loop = bench_loop(pb)
     print(f"per-candidate loop with brentq width solve: {loop:,.0f} candidates/s")
     print(f"speed-up batch/loop: {rate / loop:,.0f} x")

@@ -2,13 +2,20 @@
 
 Pipeline per batch (a row is a candidate, no per-candidate Python loop):
 
-1. decode the integer choices into (n, L) layer arrays (:mod:`strainline.optimizer.space`);
-2. bend strains of every layer face (:func:`strainline.models.bending.bend_strains`);
+1. decode the integer choices into per-slot option codes (:meth:`Space.slots`);
+2. copper strains: the fast path (:meth:`Problem.copper_strains`) stacks per-option group sums
+   (thickness, sum E t, first moment of each cover, gap and copper layer) and evaluates only the
+   copper faces -- the same transformed-section model and exact strain as
+   :func:`strainline.models.bending.bend_strains`, which the general path runs on the decoded
+   (n, L) layer arrays (:meth:`Space.mechanics`) and a test compares to 1e-12;
 3. the line: width and loss depend on only a few choices (signal position, signal copper, the
    dielectric builds next to the trace, the cover, the pair gap), so every distinct line geometry
    of the study is solved **once** (:class:`LineTable`, one :func:`solve_width` batch) and a
    candidate gathers its row by index;
 4. objectives and normalized inequality constraints ``g <= 0`` (pymoo convention).
+
+Batches are evaluated in row blocks of :data:`BLOCK` so the temporaries stay in cache; the line
+constraint columns and the quantized loss are precomputed per line-table row.
 
 Constraint columns (each is a relative excess over its limit, so 0.1 means 10 % over):
 
@@ -126,7 +133,9 @@ class LineTable:
 
 
 def _digit(s: dict[str, np.ndarray], slot: str, colno: int) -> np.ndarray:
-    """Option index of one table dimension, per candidate (the columns of :func:`_slot_arrays`)."""
+    """Option index of one table dimension (``slot``, ``colno``) per candidate: copper, film and
+    adhesive options by position, ``dbl`` (adhesive on both sides of the gap's film), the cover
+    of the line's side, the pair gap."""
     if slot in ("cu", "film", "adh"):
         return s[slot][:, colno]
     if slot == "dbl":
@@ -134,18 +143,6 @@ def _digit(s: dict[str, np.ndarray], slot: str, colno: int) -> np.ndarray:
     if slot == "cover":
         return s["cover_top"] if colno == 0 else s["cover_bot"]
     return s["gap_opt"]
-
-
-def _slot_arrays(s: dict[str, np.ndarray]) -> dict[str, np.ndarray]:
-    n = s["signal"].shape[0]
-    return {
-        "cu": s["cu"],
-        "film": s["film"],
-        "adh": s["adh"],
-        "dbl": (s["place"] == 2).astype(np.int64),
-        "cover": np.stack([s["cover_top"], s["cover_bot"]], axis=1),
-        "gap": s["gap_opt"].reshape(n, 1),
-    }
 
 
 def _gap_geom(space: Space, film: np.ndarray, adh: np.ndarray, dbl: np.ndarray):
