@@ -141,9 +141,11 @@ def build_front(problem: Problem, result: SearchResult, catalog: Any, seed: int,
                             er=tb.er[row], gap_m=tb.gap_m[row], height_top_m=tb.height_top_m[row],
                             er_top=tb.er_top[row], cover_m=tb.cover_m[row], cover_er=tb.cover_er[row],
                             bottom_ground=True)
-        objectives = {}
-        for k, (o, key) in enumerate(zip(problem.objectives, keys)):
-            objectives[key] = _num(10 ** (-F[j, k])) if o == "life" else _num(F[j, k])
+        # the search compares objectives on the resolution grid; the front reports exact values
+        exact = {"peak_strain": ev.peak_strain[j] * 100.0, "signal_strain": ev.signal_strain[j] * 100.0,
+                 "thickness": ev.total_thickness_m[j] / UM, "loss": tb.loss_db_per_m[row],
+                 "life": ev.cycles[j]}
+        objectives = {key: _num(exact[o]) for o, key in zip(problem.objectives, keys)}
         line = {
             "type": kind,
             "layer": sig + 1,

@@ -19,7 +19,7 @@ constraint columns and the quantized loss are precomputed per line-table row.
 
 Constraint columns (each is a relative excess over its limit, so 0.1 means 10 % over):
 
-``impedance``      |Z/Z_target - 1| / tolerance - 1 after the width solve (the width is clamped
+``impedance``      |Z/Z_target - 1| / nominal_error - 1 after the width solve (the width is clamped
                    into the allowed range; a target the range cannot reach shows here);
 ``width_range``    the fabricator's minimum trace for the signal copper weight against the
                    study's maximum width;
@@ -40,7 +40,7 @@ from strainline.models.bending import bend_strains
 from strainline.models.fatigue import engelmaier_cycles, engelmaier_strain_range, strain_range
 from strainline.models.units import GHZ, MM, UM
 from strainline.optimizer.space import Space, cu_col
-from strainline.optimizer.study import GAP_KINDS, OBJECTIVE_KEYS
+from strainline.optimizer.study import GAP_KINDS, OBJECTIVE_KEYS, OBJECTIVE_RESOLUTION
 
 #: Rows per block of :meth:`Problem.evaluate` and :meth:`Problem.copper_strains`: small enough for
 #: the temporaries to stay in cache (measured with benchmarks/bench_solver.py: batches of 8192 run
@@ -293,14 +293,14 @@ def build_line_table(space: Space, catalog) -> LineTable:
     )
 
 
-def quantize(F: np.ndarray, digits: int = 12) -> np.ndarray:
-    """Round to ``digits`` significant digits, so that the same design reached through different
-    codings (or summed in a different order) gives bit-identical objectives, not 1-ulp neighbours
-    that would count as separate front points."""
+def quantize(F: np.ndarray, resolution: float | np.ndarray) -> np.ndarray:
+    """Round objectives to a grid of ``resolution`` (per column, broadcast), so that designs
+    equal to within the resolution (and the same design reached through different codings or
+    summed in a different order) get identical objectives instead of counting as separate front
+    points. Non-finite values pass through."""
     F = np.asarray(F, float)
-    mag = np.where(np.isfinite(F) & (F != 0), np.floor(np.log10(np.abs(np.where(F != 0, F, 1.0)))), 0.0)
-    scale = 10.0 ** (mag - (digits - 1))
-    return np.where(np.isfinite(F), np.round(F / scale) * scale, F)
+    res = np.asarray(resolution, float)
+    return np.where(np.isfinite(F), np.round(F / res) * res, F)
 
 
 @dataclass
@@ -308,7 +308,7 @@ class Evaluation:
     """Objectives and constraints of a batch, plus the figures the front reports."""
 
     F: np.ndarray                 # (n, n_obj), minimized, edge units (life as -log10 cycles);
-    #                               feasible rows rounded to 12 significant digits (:func:`quantize`)
+    #                               feasible rows rounded to the objective resolution (:func:`quantize`)
     G: np.ndarray                 # (n, n_con), feasible where all <= 0
     peak_strain: np.ndarray       # (n,) fraction, max |strain| over copper faces
     signal_strain: np.ndarray     # (n,) fraction
@@ -432,7 +432,7 @@ class Problem:
     def _line_constraints_direct(self, row: np.ndarray) -> dict[str, np.ndarray]:
         tb, study = self.table, self.space.study
         out = {
-            "impedance": tb.rel_err[row] / study.line.tolerance - 1.0,
+            "impedance": tb.rel_err[row] / study.line.nominal_error - 1.0,
             "width_range": (tb.width_lo_m[row] - tb.width_hi_m[row]) / tb.width_hi_m[row],
             "equation_range": np.where(tb.in_range[row], -1.0, 1.0),
         }
@@ -512,12 +512,12 @@ class Problem:
         if self.fast is not None:
             # the loss column comes quantized per table row (quantize is elementwise)
             q = [k for k, o in enumerate(self.objectives) if o != "loss"]
-            F[np.ix_(feas, q)] = quantize(F[np.ix_(feas, q)])
+            F[np.ix_(feas, q)] = quantize(F[np.ix_(feas, q)], self.resolution[q])
             for k, o in enumerate(self.objectives):
                 if o == "loss":
                     F[:, k] = self.fast["loss_q"].take(row, mode="clip")
         else:
-            F[feas] = quantize(F[feas])
+            F[feas] = quantize(F[feas], self.resolution)
         return Evaluation(F, G, peak, sig, total, row, cycles)
 
     def copper_strains(self, slots: dict[str, np.ndarray]) -> tuple[np.ndarray, np.ndarray]:
@@ -656,6 +656,11 @@ class Problem:
     def objective_keys(self) -> list[str]:
         return [OBJECTIVE_KEYS[o] for o in self.objectives]
 
+    @property
+    def resolution(self) -> np.ndarray:
+        """Grid of each objective column (:data:`OBJECTIVE_RESOLUTION`), in the column's unit."""
+        return np.array([OBJECTIVE_RESOLUTION[o] for o in self.objectives], float)
+
 
 def build_problem(space: Space, catalog) -> Problem:
     """The evaluator of a study: builds the line table and the constraint list."""
@@ -704,7 +709,7 @@ def _fast_tables(pb: Problem) -> dict:
     for c, v in g.items():
         out["line_g_" + c] = np.ascontiguousarray(v, dtype=float)
     out["line_ok"] = pb._line_ok_direct(rows)
-    out["loss_q"] = quantize(pb.table.loss_db_per_m)
+    out["loss_q"] = quantize(pb.table.loss_db_per_m, OBJECTIVE_RESOLUTION["loss"])
     out["stiff"] = bool(np.all(b["cu_t"] > 0) and np.all(b["cu_E"] > 0)
                         and pb.space.study.stack.signal_coverage > 0)
     # unbonded leaves: every leaf holds a copper layer, stiff when every coverage option is > 0
@@ -714,7 +719,7 @@ def _fast_tables(pb: Problem) -> dict:
 
 #: Human wording of each constraint for the "nothing feasible" message.
 CONSTRAINT_TEXT = {
-    "impedance": "impedance within tolerance after the width solve",
+    "impedance": "nominal impedance within line.nominal_error_pct of the target after the width solve",
     "width_range": "fabricator minimum trace width within the study's width range",
     "gap_space": "gap at least the fabricator's minimum space",
     "equation_range": "impedance equations inside their validity range",

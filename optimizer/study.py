@@ -40,10 +40,21 @@ OBJECTIVE_KEYS: dict[str, str] = {
     "loss": "loss_db_per_m",
     "life": "cycles_to_failure",
 }
+#: Resolution of each objective on the front, in its front.json unit (life: log10 cycles).
+#: Designs whose objectives agree to this grid are equal for the search, so the front is not
+#: filled with variants that differ only in the fourth significant digit of a strain. The grid is
+#: far below what the models can resolve (closed-form impedance and beam strain are estimates).
+OBJECTIVE_RESOLUTION: dict[str, float] = {
+    "peak_strain": 1e-3,     # percent (10 microstrain)
+    "signal_strain": 1e-3,   # percent
+    "thickness": 0.1,        # um
+    "loss": 0.01,            # dB/m
+    "life": 0.01,            # log10 cycles (2.3 % in cycles; the equation is good to an order of magnitude)
+}
 NONE = "none"
 
 _TOP_KEYS = ("name", "description", "line", "bend", "stack", "limits", "objectives", "search")
-_LINE_KEYS = ("type", "target_ohm", "tolerance", "width_range_um", "gap_um", "frequency_ghz")
+_LINE_KEYS = ("type", "target_ohm", "tolerance", "nominal_error_pct", "width_range_um", "gap_um", "frequency_ghz")
 _BEND_KEYS = ("inner_radius_mm", "inside", "use", "cycles", "motion", "region", "plane_strain")
 _STACK_KEYS = (
     "copper_layers", "symmetric", "signal_layer", "order", "copper_weights", "copper_types",
@@ -62,6 +73,7 @@ class LineSpec:
     target_ohm: float
     tolerance: float            # relative, e.g. 0.10
     tolerance_label: str        # "10%" or a catalog class name
+    nominal_error: float        # relative; the largest nominal (as-designed) impedance error accepted
     width_min_um: float
     width_max_um: float
     gap_um: tuple[float, ...]   # empty for single lines
@@ -286,6 +298,10 @@ def validate_study(data: Any, catalog: Any, file: str = "") -> Study:
     target = v.number("line.target_ohm", ln["target_ohm"], 5.0, 300.0)
     classes = dict(getattr(catalog.fabrication, "impedance_tolerance", {}) or {})
     tol, tol_label = _tolerance(v, "line.tolerance", ln.get("tolerance", 10), classes)
+    # The nominal design must sit well inside the tolerance, leaving the rest of the band for
+    # dielectric thickness, Dk and etch scatter: by default half of it (common practice, no source).
+    nominal = v.number("line.nominal_error_pct", ln.get("nominal_error_pct", 50.0 * tol), 0.0, 100.0 * tol,
+                       lo_open=True) / 100.0
     wr = ln["width_range_um"]
     if not (isinstance(wr, list) and len(wr) == 2):
         raise v.err("line.width_range_um", f"{_show(wr)} must be [min, max] in um")
@@ -302,7 +318,7 @@ def validate_study(data: Any, catalog: Any, file: str = "") -> Study:
             raise v.err("line.gap_um", f"is only used by [{', '.join(GAP_KINDS)}], not by {kind!r}")
         gaps = ()
     freq = v.number("line.frequency_ghz", ln.get("frequency_ghz", 1.0), 0.001, 100.0)
-    line = LineSpec(kind, target, tol, tol_label, wmin, wmax, gaps, freq)
+    line = LineSpec(kind, target, tol, tol_label, nominal, wmin, wmax, gaps, freq)
 
     # --- bend
     bd = v.mapping("bend", top["bend"], _BEND_KEYS, required=("inner_radius_mm",))

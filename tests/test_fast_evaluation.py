@@ -94,8 +94,13 @@ def test_fast_evaluation_equals_the_general_evaluation(over):
     np.testing.assert_allclose(a.signal_strain, b.signal_strain, rtol=1e-12, atol=0)
     np.testing.assert_allclose(a.cycles, b.cycles, rtol=1e-9, atol=0)
     np.testing.assert_array_equal(a.line_row, b.line_row)
-    # objectives are rounded to 12 significant digits: a 1e-16 difference may move one quantum
-    np.testing.assert_allclose(a.F, b.F, rtol=2e-11, atol=0)
+    # objectives are rounded to the objective resolution: a 1e-16 difference may move one quantum
+    # (only feasible rows are rounded; the others keep full precision)
+    f = a.feasible
+    diff = np.abs(np.nan_to_num(a.F[f], posinf=0.0) - np.nan_to_num(b.F[f], posinf=0.0))
+    assert np.all(diff <= pb.resolution * 1.0001)            # at most one grid step per column
+    assert diff.size == 0 or np.mean(diff == 0) > 0.999      # and almost always none
+    assert np.all(np.abs(a.F[~f] - b.F[~f]) <= pb.resolution * 0.5001)   # loss comes pre-rounded
     np.testing.assert_allclose(a.G, b.G, rtol=1e-10, atol=1e-15)
     np.testing.assert_array_equal(a.feasible, b.feasible)
     pa, pbb = pb.evaluate(x, prune=True), slow.evaluate(x, prune=True)
