@@ -24,6 +24,7 @@ def write_atomic(path: str | os.PathLike[str], data: str | bytes) -> Path:
     try:
         with os.fdopen(fd, mode, **({} if mode == "wb" else {"encoding": "utf-8", "newline": ""})) as fh:
             fh.write(data)
+        os.chmod(tmp, 0o666 & ~_umask())   # mkstemp makes 0600; give the file the usual mode
         os.replace(tmp, path)
     except BaseException:
         try:
@@ -32,6 +33,12 @@ def write_atomic(path: str | os.PathLike[str], data: str | bytes) -> Path:
             pass
         raise
     return path
+
+
+def _umask() -> int:
+    mask = os.umask(0)
+    os.umask(mask)
+    return mask
 
 
 def read_yaml(path: str | os.PathLike[str], cls: type[StrainlineError]) -> Any:

@@ -19,7 +19,7 @@ import numpy as np
 from strainline.models.stackup import Layer, Stackup
 from strainline.models.units import UM
 from strainline.optimizer.problem import CONSTRAINT_TEXT, Problem
-from strainline.optimizer.search import SearchResult, hypervolume
+from strainline.optimizer.search import SearchResult, _dominated_by, hypervolume
 from strainline.optimizer.space import Space, cu_col, gap_cols
 
 CAUTION = (
@@ -265,14 +265,30 @@ def build_front(problem: Problem, result: SearchResult, catalog: Any, seed: int,
         search["hypervolume"] = 0.0
         search["reference_point"] = None
         search["infeasible"] = explain_infeasible(problem, arch)
+    # a uniform sample of the feasible points the search saw, less the front: the report draws
+    # them faintly behind the front (objectives on the search's resolution grid)
+    dominated: list[dict[str, Any]] = []
+    sample = getattr(arch, "sample_F", np.empty((0, len(keys))))
+    if len(F) and len(sample):
+        behind = sample[_dominated_by(sample, F) & ~_on_front(sample, F)]
+        for r in behind:
+            dominated.append({"objectives": {
+                k: (_num(10 ** (-v)) if o == "life" else _num(v)) for k, o, v in zip(keys, problem.objectives, r)}})
+    search["dominated_sample"] = len(dominated)
     return {
         "study": study_raw if study_raw is not None else dict(study.raw),
         "version": __version__,
         "seed": seed,
         "search": search,
         "candidates": candidates,
+        "dominated": dominated,
         "caution": CAUTION,
     }
+
+
+def _on_front(A: np.ndarray, F: np.ndarray) -> np.ndarray:
+    """Rows of A equal to some row of F."""
+    return (A[:, None, :] == F[None, :, :]).all(axis=2).any(axis=1)
 
 
 def explain_infeasible(problem: Problem, arch) -> dict[str, Any]:

@@ -106,10 +106,27 @@ class Archive:
     near_X: np.ndarray | None = None
     near_G: np.ndarray | None = None
     violated: np.ndarray | None = None     # per constraint: how many candidates violate it
+    #: Size of the uniform sample of feasible objective vectors kept for the report's background
+    #: (bottom-k sampling on seeded random keys: uniform over the stream, reproducible).
+    sample_size: int = 1000
+    sample_F: np.ndarray = field(init=False)
+    _sample_keys: np.ndarray = field(init=False, repr=False)
+    _sample_rng: np.random.Generator = field(init=False, repr=False)
 
     def __post_init__(self) -> None:
         self.F = np.empty((0, self.n_obj))
         self.X = np.empty((0, self.n_var), np.int64)
+        self.sample_F = np.empty((0, self.n_obj))
+        self._sample_keys = np.empty(0)
+        self._sample_rng = np.random.default_rng(0)
+
+    def _sample(self, Fb: np.ndarray) -> None:
+        keys = np.concatenate([self._sample_keys, self._sample_rng.random(len(Fb))])
+        Fs = np.concatenate([self.sample_F, Fb])
+        if len(keys) > self.sample_size:
+            keep = np.argpartition(keys, self.sample_size - 1)[: self.sample_size]
+            keys, Fs = keys[keep], Fs[keep]
+        self._sample_keys, self.sample_F = keys, Fs
 
     def add(self, X: np.ndarray, F: np.ndarray, G: np.ndarray) -> int:
         """Merge a batch; return how many archive points changed (0 = no improvement)."""
@@ -141,6 +158,8 @@ class Archive:
         if not feas.any():
             return 0
         Fb, Xb = F[feas], X[feas]
+        if self.sample_size:
+            self._sample(Fb)
         # quick pre-screen against the current front (most points of a big batch are dominated)
         if len(self.F):
             dom = _dominated_by(Fb, self.F)

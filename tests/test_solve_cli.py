@@ -92,6 +92,24 @@ def test_candidates_are_feasible_and_mutually_non_dominated(solved):
         assert c["line"]["width_um"] <= 500 + 1e-9
 
 
+def test_dominated_sample_lies_behind_the_front(solved):
+    # Pareto dominance by definition (weakly worse everywhere, strictly somewhere), written here:
+    # every background point the report draws is dominated by some front candidate, within the
+    # search's objective resolution (the sample is on the grid, the candidates exact).
+    front, _ = solved
+    keys = ["signal_strain_pct", "total_thickness_um", "loss_db_per_m", "cycles_to_failure"]
+    res = np.array([1e-3, 0.1, 0.01, 0.0])
+    sign = np.array([1, 1, 1, -1])                      # life is maximized
+    F = np.array([[c["objectives"][k] for k in keys] for c in front["candidates"]]) * sign
+    D = front["dominated"]
+    assert 0 < len(D) <= 1000 and len(D) <= front["search"]["feasible"]
+    assert front["search"]["dominated_sample"] == len(D)
+    for d in D:
+        q = np.array([d["objectives"][k] for k in keys]) * sign
+        life_tol = np.array([0, 0, 0, abs(q[3]) * 0.024])   # life grid: 0.01 decade
+        assert np.any(np.all(F <= q + res / 2 + life_tol + 1e-9, axis=1)), d
+
+
 def test_reported_strains_recompute_from_the_reported_layers(solved):
     # Exact strain (bending.md 1.2), bottom face inside: eps = (y - y_na)/(R + y_na), y_na the
     # transformed-section centroid of the reported effective moduli. By hand, and through the model.
