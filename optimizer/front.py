@@ -347,18 +347,22 @@ def front_dataframe(front: dict[str, Any]):
 
 
 def front_csv(front: dict[str, Any]) -> str:
-    """``front.csv`` text: one flat row per candidate, header from the union of columns."""
+    """``front.csv`` text: one flat row per candidate, header from the union of columns, and a last
+    ``caution`` column so a spreadsheet opened on its own still carries the caution."""
     rows = flat_rows(front)
     cols: list[str] = []
     for r in rows:
         for k in r:
             if k not in cols:
                 cols.append(k)
+    if rows:
+        cols.append("caution")
+    caution = front.get("caution", CAUTION)
     buf = io.StringIO()
     w = csv.DictWriter(buf, fieldnames=cols or ["id"], lineterminator="\n")
     w.writeheader()
     for r in rows:
-        w.writerow({k: ("" if r.get(k) is None else r.get(k)) for k in cols})
+        w.writerow({**{k: ("" if r.get(k) is None else r.get(k)) for k in cols}, "caution": caution})
     return buf.getvalue()
 
 

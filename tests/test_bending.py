@@ -316,6 +316,8 @@ def _epp_inputs(t_um, e_gpa, is_cu, eps_y):
 
 
 def test_epp_equals_elastic_when_copper_stays_elastic():
+    # Elastic-perfectly-plastic limit: below yield the force balance reduces to the transformed
+    # section (Gere & Timoshenko, composite beams), so both give the same axis and strains.
     t, e, ey, cap = _epp_inputs([25, 18, 25], [2.8, 118, 5.0], [False, True, False], 1.0)
     el = b.bend_strains(t, e, 1e-3)
     pl = b.epp_bend_strains(t, e, ey, cap, 1e-3)
@@ -403,6 +405,8 @@ layer_e = st.floats(0.5, 200.0)
 @settings(max_examples=60, deadline=None)
 @given(st.lists(st.tuples(layer_t, layer_e), min_size=1, max_size=7), st.floats(0.05, 20.0), st.booleans())
 def test_property_axis_inside_and_strain_falls_with_radius(layers, r_mm, inside_bottom):
+    # Exact properties of the transformed section and of strain (y - y_na)/(R + y_na): a weighted
+    # centroid lies inside the stack, and every face strain shrinks as the radius grows.
     t = np.array([[x[0] for x in layers]]) * UM
     e = np.array([[x[1] for x in layers]]) * GPA
     na = b.neutral_axis(t, e)[0]

@@ -53,6 +53,8 @@ def test_batch_equals_loop(kind):
 
 @pytest.mark.parametrize("kind", LINE_KINDS)
 def test_every_branch_in_one_batch_is_finite_and_physical(kind):
+    # Physics bounds: Z0 > 0 and 1 <= eps_eff; for an edge-coupled pair Z_odd < Z_even (Cohn 1955,
+    # Kirschning & Jansen 1984: the odd mode has the larger capacitance).
     g = _mixed_batch(200)
     r = evaluate_line(kind, g, np.full(g.n, 5e9))
     assert np.all(np.isfinite(r.z0_ohm)) and np.all(r.z0_ohm > 0)

@@ -179,6 +179,7 @@ def test_front_csv_has_one_row_per_candidate(solved):
     assert [r["id"] for r in rows] == [c["id"] for c in front["candidates"]]
     assert float(rows[0]["line.width_um"]) == pytest.approx(front["candidates"][0]["line"]["width_um"])
     assert "layers.1.strain_top_pct" in rows[0]
+    assert all("IPC-2223" in r["caution"] and "coupons" in r["caution"] for r in rows)
 
 
 def test_front_dataframe_view(solved):

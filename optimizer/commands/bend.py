@@ -43,7 +43,7 @@ def register(subparsers) -> argparse.ArgumentParser:
                     "the strain at every layer face, copper cycles to failure (Engelmaier) and design-rule findings. "
                     "Estimates for concept work: verify with the fabricator and with flex testing.",
     )
-    p.add_argument("stackup", metavar="STACKUP.yaml", help="stackup file (see README.md (bend mechanics))")
+    p.add_argument("stackup", metavar="STACKUP.yaml", help="stackup file (format: README.md, 'Bend mechanics')")
     p.add_argument("--inner-radius-mm", required=True, type=_positive_mm, metavar="R",
                    help="radius of the inner (mandrel) face of the bend, mm")
     p.add_argument("--inside", choices=INSIDES, default="bottom", help="which face is inside the bend (default bottom)")
