@@ -22,7 +22,7 @@ from scipy.special import ellipk, ellipkm1
 from strainline.models.fields import field_solve
 from strainline.models.lines import LineGeometry, evaluate_line, solve_width
 from strainline.models.units import ETA0
-from strainline.optimizer.verify import verify_front
+from strainline.optimizer.search.verify import verify_front
 
 UM = 1e-6
 

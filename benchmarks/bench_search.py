@@ -23,13 +23,13 @@ from pathlib import Path
 
 import numpy as np
 
-from strainline.optimizer.catalog import load_catalog
-from strainline.optimizer.problem import build_problem
-from strainline.optimizer.search import (
+from strainline.optimizer.inputs.catalog import load_catalog
+from strainline.optimizer.search.problem import build_problem
+from strainline.optimizer.search.engine import (
     additive_epsilon, evolutionary, exhaustive, hypervolume, random_search,
 )
-from strainline.optimizer.space import build_space
-from strainline.optimizer.study import validate_study
+from strainline.optimizer.search.space import build_space
+from strainline.optimizer.inputs.study import validate_study
 
 ROOT = Path(__file__).resolve().parents[1]
 CAT = load_catalog()

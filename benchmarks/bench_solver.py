@@ -28,11 +28,11 @@ from scipy.optimize import brentq  # noqa: E402
 from strainline.models.bending import bend_strains  # noqa: E402
 from strainline.models.lines import LineGeometry, evaluate_line  # noqa: E402
 from strainline.models.units import MM  # noqa: E402
-from strainline.optimizer.catalog import load_catalog  # noqa: E402
-from strainline.optimizer.problem import build_problem  # noqa: E402
-from strainline.optimizer.search import exhaustive  # noqa: E402
-from strainline.optimizer.space import build_space, cu_col  # noqa: E402
-from strainline.optimizer.study import validate_study  # noqa: E402
+from strainline.optimizer.inputs.catalog import load_catalog  # noqa: E402
+from strainline.optimizer.search.problem import build_problem  # noqa: E402
+from strainline.optimizer.search.engine import exhaustive  # noqa: E402
+from strainline.optimizer.search.space import build_space, cu_col  # noqa: E402
+from strainline.optimizer.inputs.study import validate_study  # noqa: E402
 
 CAT = load_catalog()
 

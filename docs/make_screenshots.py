@@ -15,7 +15,7 @@ import sys
 import tempfile
 from pathlib import Path
 
-from strainline.optimizer.report import load_front, write_all
+from strainline.optimizer.outputs.report import load_front, write_all
 
 HERE = Path(__file__).resolve().parent
 ROOT = HERE.parent

@@ -1,4 +1,4 @@
 """``python -m strainline.optimizer`` runs the command line."""
-from strainline.optimizer.cli import main
+from strainline.optimizer.cli.main import main
 
 raise SystemExit(main())

@@ -16,7 +16,7 @@ def repo_root() -> Path:
 @pytest.fixture
 def run_cli(capsys):
     """Run ``strainline`` in-process; return (exit_code, stdout, stderr)."""
-    from strainline.optimizer.cli import main
+    from strainline.optimizer.cli.main import main
 
     def _run(*argv: str) -> tuple[int, str, str]:
         code = main([str(a) for a in argv])

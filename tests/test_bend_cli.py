@@ -16,9 +16,9 @@ import numpy as np
 import pytest
 from scipy.optimize import brentq
 
-from strainline.optimizer.catalog import load_catalog
+from strainline.optimizer.inputs.catalog import load_catalog
 from strainline.optimizer.errors import StackupError
-from strainline.optimizer.stackup_file import load_stackup
+from strainline.optimizer.inputs.stackup_file import load_stackup
 
 ROOT = Path(__file__).resolve().parents[1]
 EXAMPLES = sorted((ROOT / "studies" / "stackups").glob("*.yaml"))
@@ -234,7 +234,7 @@ def test_missing_file_and_bad_choice(run_cli, tmp_path):
 
 
 def test_bend_report_rejects_bad_arguments():
-    from strainline.optimizer.bend_report import bend_report
+    from strainline.optimizer.outputs.bend_report import bend_report
     from strainline.optimizer.errors import InputError
     s = load_stackup(EXAMPLES[0], load_catalog())
     for kw in ({"inner_radius_mm": 0.0}, {"inner_radius_mm": 1.0, "inside": "side"},

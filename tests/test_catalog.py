@@ -23,7 +23,7 @@ import pytest
 import yaml
 
 from strainline.models.materials import CopperFoil, Coverlay, Dielectric, FoilWeight
-from strainline.optimizer.catalog import CAUTION, SECTIONS, Catalog, load_catalog
+from strainline.optimizer.inputs.catalog import CAUTION, SECTIONS, Catalog, load_catalog
 from strainline.optimizer.errors import CatalogError
 
 HERE = Path(__file__).resolve().parent

@@ -17,10 +17,10 @@ import pytest
 
 from strainline.models.bending import bend_strains
 from strainline.models.units import MM
-from strainline.optimizer.catalog import load_catalog
-from strainline.optimizer.problem import build_problem
-from strainline.optimizer.space import build_space, cu_col
-from strainline.optimizer.study import validate_study
+from strainline.optimizer.inputs.catalog import load_catalog
+from strainline.optimizer.search.problem import build_problem
+from strainline.optimizer.search.space import build_space, cu_col
+from strainline.optimizer.inputs.study import validate_study
 
 CAT = load_catalog()
 
@@ -109,7 +109,7 @@ def test_fast_evaluation_equals_the_general_evaluation(over):
 
 def test_chunk_digits_equal_numpy_unravel_index():
     # Reference: numpy.unravel_index with order="F" gives mixed-radix digits, first variable fastest.
-    from strainline.optimizer.search import _ChunkDigits
+    from strainline.optimizer.search.engine import _ChunkDigits
 
     rng = np.random.default_rng(5)
     for _ in range(60):

@@ -11,9 +11,9 @@ from pathlib import Path
 import pandas as pd
 import pytest
 
-from strainline.optimizer.catalog import load_catalog
-from strainline.optimizer.handoff import CSV_COLUMNS, build_handoff, write_handoff
-from strainline.optimizer.report import CAUTION
+from strainline.optimizer.inputs.catalog import load_catalog
+from strainline.optimizer.outputs.sheets import CSV_COLUMNS, build_handoff, write_handoff
+from strainline.optimizer.outputs.report import CAUTION
 
 FIXTURE = Path(__file__).parent / "fixtures" / "front_small.json"
 

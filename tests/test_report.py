@@ -8,8 +8,8 @@ from pathlib import Path
 
 import pytest
 
-from strainline.optimizer import handoff
-from strainline.optimizer.report import (
+from strainline.optimizer.outputs import sheets as handoff
+from strainline.optimizer.outputs.report import (
     CAUTION,
     build_report_html,
     decision_table,
@@ -174,8 +174,8 @@ def _without_study_limit(front, **bend):
     ("reversed", 0.26),
 ])
 def test_strain_limit_from_required_cycles(front, motion, per_cycle_peak_pct):
-    from strainline.optimizer.catalog import load_catalog
-    from strainline.optimizer.report import strain_limits
+    from strainline.optimizer.inputs.catalog import load_catalog
+    from strainline.optimizer.outputs.report import strain_limits
 
     cat = load_catalog()
     ra = cat.foil("rolled-annealed")
@@ -188,7 +188,7 @@ def test_strain_limit_from_required_cycles(front, motion, per_cycle_peak_pct):
 
 
 def test_strain_limit_install_and_study_given(front):
-    from strainline.optimizer.report import strain_limits
+    from strainline.optimizer.outputs.report import strain_limits
 
     limits, basis = strain_limits(front, None)
     assert limits == [5.0] * len(front["candidates"]) and "study" in basis

@@ -20,8 +20,8 @@ from pathlib import Path
 import pandas as pd
 import pytest
 
-from strainline.optimizer.cli import main
-from strainline.optimizer.report import figure, write_all
+from strainline.optimizer.cli.main import main
+from strainline.optimizer.outputs.report import figure, write_all
 
 FIXTURE = Path(__file__).parent / "fixtures" / "front_small.json"
 #: a shipped study with a differential (coupled) line, the most elaborate drawing

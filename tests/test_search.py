@@ -7,14 +7,14 @@ import copy
 import numpy as np
 import pytest
 
-from strainline.optimizer.catalog import load_catalog
-from strainline.optimizer.problem import build_problem
-from strainline.optimizer.search import (
+from strainline.optimizer.inputs.catalog import load_catalog
+from strainline.optimizer.search.problem import build_problem
+from strainline.optimizer.search.engine import (
     Archive, additive_epsilon, choose_method, evolutionary, exhaustive, hypervolume, nondominated_mask,
     random_search, AUTO_EXHAUSTIVE_MAX,
 )
-from strainline.optimizer.space import build_space
-from strainline.optimizer.study import validate_study
+from strainline.optimizer.search.space import build_space
+from strainline.optimizer.inputs.study import validate_study
 
 CAT = load_catalog()
 
@@ -219,7 +219,7 @@ def test_study_evolutionary_close_to_exhaustive():
 def test_progress_bar_only_on_a_terminal():
     import io
 
-    from strainline.optimizer.progress import Progress
+    from strainline.optimizer.cli.progress import Progress
 
     class Tty(io.StringIO):
         def isatty(self):

@@ -44,7 +44,7 @@ def engelmaier_residual(n, strain_range, d, su, e):
 
 @pytest.fixture(scope="module")
 def solved(tmp_path_factory):
-    from strainline.optimizer.cli import main
+    from strainline.optimizer.cli.main import main
 
     tmp = tmp_path_factory.mktemp("solve")
     study = write_study(tmp, SMALL)
@@ -138,7 +138,7 @@ def test_reported_strains_recompute_from_the_reported_layers(solved):
 
 def test_reported_fatigue_life_solves_engelmaiers_equation(solved):
     front, _ = solved
-    from strainline.optimizer.catalog import load_catalog
+    from strainline.optimizer.inputs.catalog import load_catalog
 
     foil = load_catalog().foils["rolled-annealed"]
     for c in front["candidates"]:
@@ -183,7 +183,7 @@ def test_front_csv_has_one_row_per_candidate(solved):
 
 
 def test_front_dataframe_view(solved):
-    from strainline.optimizer.front import front_dataframe
+    from strainline.optimizer.search.front import front_dataframe
 
     front, _ = solved
     df = front_dataframe(front)
@@ -251,7 +251,7 @@ def test_bad_signal_layer_and_options(tmp_path, run_cli):
 def test_reported_figures_match_the_bend_and_line_commands(solved, tmp_path, run_cli):
     # Round trip through the other commands: the candidate's layers written as a stackup file and
     # bent by `strainline bend`, its line geometry given to `strainline line`, give the same figures.
-    from strainline.optimizer.catalog import load_catalog
+    from strainline.optimizer.inputs.catalog import load_catalog
 
     weights = {round(w.thickness_m / UM, 6): k for k, w in load_catalog().weights.items()}
     front, _ = solved
@@ -284,7 +284,7 @@ def test_reported_figures_match_the_bend_and_line_commands(solved, tmp_path, run
 
 
 def test_verify_flag_field_checks_the_front(tmp_path, run_cli):
-    pytest.importorskip("strainline.optimizer.verify")
+    pytest.importorskip("strainline.optimizer.search.verify")
     data = {
         "name": "verify-unit",
         "line": {"type": "microstrip", "target_ohm": 50, "width_range_um": [50, 500], "frequency_ghz": 2},

@@ -10,11 +10,11 @@ import pytest
 from strainline.models.bending import bend_strains
 from strainline.models.lines import LineGeometry, composite_er, evaluate_line
 from strainline.models.units import MM, UM
-from strainline.optimizer.catalog import load_catalog
-from strainline.optimizer.front import candidate_stackup
-from strainline.optimizer.problem import build_problem, composite_df
-from strainline.optimizer.space import build_space, cu_col
-from strainline.optimizer.study import validate_study
+from strainline.optimizer.inputs.catalog import load_catalog
+from strainline.optimizer.search.front import candidate_stackup
+from strainline.optimizer.search.problem import build_problem, composite_df
+from strainline.optimizer.search.space import build_space, cu_col
+from strainline.optimizer.inputs.study import validate_study
 
 CAT = load_catalog()
 

@@ -8,9 +8,9 @@ from pathlib import Path
 import pytest
 import yaml
 
-from strainline.optimizer.catalog import load_catalog
+from strainline.optimizer.inputs.catalog import load_catalog
 from strainline.optimizer.errors import StudyError
-from strainline.optimizer.study import LINE_KINDS, OBJECTIVES, load_study, validate_study
+from strainline.optimizer.inputs.study import LINE_KINDS, OBJECTIVES, load_study, validate_study
 
 ROOT = Path(__file__).resolve().parents[1]
 STUDIES = sorted((ROOT / "studies").glob("*.yaml"))
@@ -127,7 +127,7 @@ def test_shipped_studies_are_valid(path):
 
 def test_schema_matches_the_validator():
     schema = json.loads((ROOT / "catalogs" / "study.schema.json").read_text())
-    from strainline.optimizer import study as S
+    from strainline.optimizer.inputs import study as S
 
     props = schema["properties"]
     assert set(props) == set(S._TOP_KEYS)

@@ -13,7 +13,7 @@ import pytest
 from strainline.models.fields import field_solve
 from strainline.models.lines import LineGeometry, evaluate_line
 from strainline.optimizer.errors import InputError
-from strainline.optimizer.verify import verify_front
+from strainline.optimizer.search.verify import verify_front
 
 UM = 1e-6
 CPF = 2.0  # a coarse base mesh keeps the suite fast; the estimate is still a few tenths of a percent

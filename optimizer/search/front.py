@@ -18,9 +18,9 @@ import numpy as np
 
 from strainline.models.stackup import Layer, Stackup
 from strainline.models.units import UM
-from strainline.optimizer.problem import CONSTRAINT_TEXT, Problem
-from strainline.optimizer.search import SearchResult, _dominated_by, hypervolume
-from strainline.optimizer.space import Space, cu_col, gap_cols
+from strainline.optimizer.search.problem import CONSTRAINT_TEXT, Problem
+from strainline.optimizer.search.engine import SearchResult, _dominated_by, hypervolume
+from strainline.optimizer.search.space import Space, cu_col, gap_cols
 
 CAUTION = (
     "Estimates for concept work only: verify with the fabricator's impedance modelling and coupons and "
@@ -114,7 +114,7 @@ def build_front(problem: Problem, result: SearchResult, catalog: Any, seed: int,
     from strainline.models.lines import LineGeometry
     from strainline.models.lines.evaluate import method_findings, methods_used, range_findings
     from strainline.optimizer import __version__
-    from strainline.optimizer.bend_report import bend_report
+    from strainline.optimizer.outputs.bend_report import bend_report
 
     sp = problem.space
     study = sp.study
@@ -371,14 +371,14 @@ def write_outputs(front: dict[str, Any], out_dir: Path) -> list[Path]:
 
     The report and handoff writers extend this function (one place for every output file).
     """
-    from strainline.optimizer.fileio import write_atomic
+    from strainline.optimizer.outputs.fileio import write_atomic
 
     out_dir = Path(out_dir)
     paths = [
         write_atomic(out_dir / "front.json", json.dumps(front, indent=1, allow_nan=False) + "\n"),
         write_atomic(out_dir / "front.csv", front_csv(front)),
     ]
-    from strainline.optimizer.report import write_all   # report.html + handoff/ (built in memory first)
+    from strainline.optimizer.outputs.report import write_all   # report.html + handoff/ (built in memory first)
 
     paths += write_all(front, out_dir)
     return paths

@@ -25,7 +25,7 @@ from pathlib import Path
 from typing import Any
 
 from strainline.optimizer.errors import InputError
-from strainline.optimizer.fileio import write_atomic
+from strainline.optimizer.outputs.fileio import write_atomic
 
 #: The caution every output a person could trust for a bending product carries.
 CAUTION = (
@@ -577,7 +577,7 @@ def build_report_html(front: Mapping[str, Any], catalog: Any | None = None, plot
 
 def _try_catalog() -> Any | None:
     try:
-        from strainline.optimizer.catalog import load_catalog
+        from strainline.optimizer.inputs.catalog import load_catalog
 
         return load_catalog()
     except Exception:  # noqa: BLE001 - the report still draws without it (families guessed)
@@ -595,7 +595,7 @@ def write_all(front: Mapping[str, Any], out_dir: str | Path, catalog: Any | None
 
     Everything is built in memory first, so a failure leaves the previous files untouched.
     """
-    from strainline.optimizer.handoff import build_handoff, write_handoff_files
+    from strainline.optimizer.outputs.sheets import build_handoff, write_handoff_files
 
     front = check_front(front)
     if catalog is None:

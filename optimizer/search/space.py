@@ -31,7 +31,7 @@ from typing import Any
 import numpy as np
 
 from strainline.models.units import UM
-from strainline.optimizer.study import GAP_KINDS, NONE, Study
+from strainline.optimizer.inputs.study import GAP_KINDS, NONE, Study
 
 #: Copper-column index of copper layer i and the three gap columns of gap g (see module docstring).
 PLACEMENTS: tuple[str, ...] = ("below", "above", "both")
@@ -412,7 +412,7 @@ def build_space(study: Study, catalog: Any) -> Space:
     study : Study
         A validated study.
     catalog : Catalog
-        The material catalog (``strainline.optimizer.catalog.load_catalog``).
+        The material catalog (``strainline.optimizer.inputs.catalog.load_catalog``).
     """
     st = study.stack
     N = st.copper_layers

@@ -10,9 +10,9 @@ import json
 import math
 from typing import Any
 
-from strainline.optimizer.bend_report import INSIDES, MOTIONS, USES, bend_report
-from strainline.optimizer.catalog import load_catalog
-from strainline.optimizer.stackup_file import load_stackup
+from strainline.optimizer.outputs.bend_report import INSIDES, MOTIONS, USES, bend_report
+from strainline.optimizer.inputs.catalog import load_catalog
+from strainline.optimizer.inputs.stackup_file import load_stackup
 
 
 def _positive_mm(text: str) -> float:

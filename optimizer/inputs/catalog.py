@@ -46,7 +46,7 @@ from strainline.models.materials import (
     FoilWeight,
 )
 from strainline.models.units import GHZ, GPA, MPA, UM
-from strainline.optimizer import fileio
+from strainline.optimizer.inputs import yamlio
 from strainline.optimizer.errors import CatalogError, not_one_of
 
 __all__ = [
@@ -635,8 +635,8 @@ def _duplicate_key(node: yaml.Node | None) -> tuple[str, int] | None:
 
 
 def _read(path: Path, label: str) -> Any:
-    """Read one catalog file: missing file and YAML syntax via fileio, then refuse duplicate keys."""
-    doc = fileio.read_yaml(path, CatalogError)
+    """Read one catalog file: missing file and YAML syntax via yamlio, then refuse duplicate keys."""
+    doc = yamlio.read_yaml(path, CatalogError)
     dup = _duplicate_key(yaml.compose(path.read_text(encoding="utf-8"), Loader=_COMPOSER))
     if dup is not None:
         raise CatalogError(f"key {dup[0]!r} appears twice (line {dup[1]})", label)

@@ -14,7 +14,7 @@ from typing import Any
 from strainline.models.stackup import BEND_AREA_FEATURES, LAYER_KINDS, Layer, Stackup
 from strainline.models.units import GPA, MPA, UM
 from strainline.optimizer.errors import StackupError, not_one_of
-from strainline.optimizer.fileio import read_yaml
+from strainline.optimizer.inputs.yamlio import read_yaml
 
 TOP_KEYS: tuple[str, ...] = ("name", "description", "layers", "bend_area_features")
 DIELECTRIC_KEYS: tuple[str, ...] = ("name", "kind", "material", "thickness_um", "modulus_gpa", "poisson", "dk", "df",
@@ -100,7 +100,7 @@ def load_stackup(path: str | os.PathLike[str], catalog) -> Stackup:
     ----------
     path : path-like
         The YAML file (layers top to bottom; format in README.md (bend mechanics)).
-    catalog : strainline.optimizer.catalog.Catalog
+    catalog : strainline.optimizer.inputs.catalog.Catalog
         Materials, coverlays, foils and weights the file may name.
 
     Returns

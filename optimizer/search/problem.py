@@ -39,8 +39,8 @@ import numpy as np
 from strainline.models.bending import bend_strains
 from strainline.models.fatigue import engelmaier_cycles, engelmaier_strain_range, strain_range
 from strainline.models.units import GHZ, MM, UM
-from strainline.optimizer.space import Space, cu_col
-from strainline.optimizer.study import GAP_KINDS, OBJECTIVE_KEYS, OBJECTIVE_RESOLUTION
+from strainline.optimizer.search.space import Space, cu_col
+from strainline.optimizer.inputs.study import GAP_KINDS, OBJECTIVE_KEYS, OBJECTIVE_RESOLUTION
 
 #: Rows per block of :meth:`Problem.evaluate` and :meth:`Problem.copper_strains`: small enough for
 #: the temporaries to stay in cache (measured with benchmarks/bench_solver.py: batches of 8192 run

@@ -302,7 +302,7 @@ def run(args: argparse.Namespace) -> int:
         findings.append("conductor loss uses annealed-copper conductivity 5.80e7 S/m (IEC 60028)")
     d = build_result(args, geom, result, loss, findings)
     if args.field_solve:
-        from strainline.optimizer.verify import field_for_line, field_text
+        from strainline.optimizer.search.verify import field_for_line, field_text
         d["field"] = field_for_line(kind, geom, args.target_ohm, d.get("z_diff_ohm", d["z0_ohm"]),
                                     (WIDTH_MIN_UM, WIDTH_MAX_UM))
     if args.json:

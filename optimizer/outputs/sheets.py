@@ -31,8 +31,8 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
-from strainline.optimizer.fileio import write_atomic
-from strainline.optimizer.report import (
+from strainline.optimizer.outputs.fileio import write_atomic
+from strainline.optimizer.outputs.report import (
     study_value,
     STRAIN_CONVENTION,
     _try_catalog,

@@ -2,7 +2,7 @@
 
 All drivers work on an *evaluator*: any callable ``evaluate(x) -> (F, G)`` taking integer vectors
 (n, n_var) and returning objectives (n, n_obj, minimized) and constraints (n, n_con, feasible where
-every column is <= 0). The study problem (:class:`strainline.optimizer.problem.Problem`) is one;
+every column is <= 0). The study problem (:class:`strainline.optimizer.search.problem.Problem`) is one;
 the tests and benchmarks also use small synthetic ones.
 
 * :class:`Archive` -- a streaming non-dominated filter: feed it batches, it keeps exactly the

@@ -18,7 +18,7 @@ from pathlib import Path
 from typing import Any, Literal, get_args
 
 from strainline.optimizer.errors import StudyError, closest, not_one_of
-from strainline.optimizer.fileio import read_yaml
+from strainline.optimizer.inputs.yamlio import read_yaml
 
 LineKind = Literal["microstrip", "stripline", "coupled-microstrip", "coupled-stripline", "coplanar"]
 LINE_KINDS: tuple[str, ...] = get_args(LineKind)
@@ -274,7 +274,7 @@ def validate_study(data: Any, catalog: Any, file: str = "") -> Study:
     data : mapping
         The parsed YAML.
     catalog : Catalog
-        From :func:`strainline.optimizer.catalog.load_catalog`.
+        From :func:`strainline.optimizer.inputs.catalog.load_catalog`.
     file : str
         File name used as the prefix of every error.
 
@@ -402,7 +402,7 @@ def load_study(path: str | Path, catalog: Any | None = None) -> Study:
         Defaults to the shipped catalog.
     """
     if catalog is None:
-        from strainline.optimizer.catalog import load_catalog
+        from strainline.optimizer.inputs.catalog import load_catalog
 
         catalog = load_catalog()
     path = Path(path)

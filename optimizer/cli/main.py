@@ -1,6 +1,6 @@
 """The ``strainline`` command line.
 
-Each subcommand lives in ``strainline.optimizer.commands.<name>`` and provides
+Each subcommand lives in ``strainline.optimizer.cli.<name>`` and provides
 ``register(subparsers) -> argparse.ArgumentParser`` and ``run(args) -> int``.
 Only :func:`main` turns our exceptions into one stderr line and an exit code:
 0 success, 2 bad input, 1 internal failure.
@@ -37,9 +37,9 @@ def build_parser() -> argparse.ArgumentParser:
     sub.required = True
     for name in COMMANDS:
         try:
-            module = importlib.import_module(f"strainline.optimizer.commands.{name}")
+            module = importlib.import_module(f"strainline.optimizer.cli.{name}")
         except ModuleNotFoundError as exc:
-            if exc.name == f"strainline.optimizer.commands.{name}":
+            if exc.name == f"strainline.optimizer.cli.{name}":
                 continue  # command not built in this version
             raise
         sp = module.register(sub)

@@ -17,7 +17,7 @@ import textwrap
 from collections.abc import Sequence
 from typing import Any
 
-from strainline.optimizer.catalog import CAUTION, SECTIONS, Catalog, load_catalog
+from strainline.optimizer.inputs.catalog import CAUTION, SECTIONS, Catalog, load_catalog
 from strainline.optimizer.errors import InputError, not_one_of
 
 _WRAP = 100

@@ -5,7 +5,7 @@ import argparse
 from pathlib import Path
 
 from strainline.optimizer.errors import InputError
-from strainline.optimizer.report import CAUTION, load_front, write_all
+from strainline.optimizer.outputs.report import CAUTION, load_front, write_all
 
 
 def register(subparsers: argparse._SubParsersAction) -> argparse.ArgumentParser:

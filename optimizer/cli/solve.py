@@ -35,7 +35,7 @@ def register(subparsers) -> argparse.ArgumentParser:
     p.add_argument("--seed", type=_positive_int, default=None, help="random seed (default: the study's)")
     p.add_argument("--quiet", action="store_true", help="no progress bar and no table")
     try:
-        import strainline.optimizer.verify  # noqa: F401
+        import strainline.optimizer.search.verify  # noqa: F401
 
         p.add_argument("--verify", action="store_true", help="field-solve every front candidate")
         p.add_argument("--workers", type=_positive_int, default=1, help="local worker processes for --verify")
@@ -61,13 +61,13 @@ def solve(study_path: str | Path, out: str | Path | None = None, method: str | N
     quiet : bool
         No progress bar.
     """
-    from strainline.optimizer.catalog import load_catalog
-    from strainline.optimizer.front import build_front, write_outputs
-    from strainline.optimizer.problem import build_problem
-    from strainline.optimizer.progress import Progress
-    from strainline.optimizer.search import search
-    from strainline.optimizer.space import build_space
-    from strainline.optimizer.study import load_study
+    from strainline.optimizer.inputs.catalog import load_catalog
+    from strainline.optimizer.search.front import build_front, write_outputs
+    from strainline.optimizer.search.problem import build_problem
+    from strainline.optimizer.cli.progress import Progress
+    from strainline.optimizer.search.engine import search
+    from strainline.optimizer.search.space import build_space
+    from strainline.optimizer.inputs.study import load_study
 
     t0 = time.perf_counter()
     catalog = catalog or load_catalog()
@@ -99,12 +99,12 @@ def solve(study_path: str | Path, out: str | Path | None = None, method: str | N
 
 
 def run(args: argparse.Namespace) -> int:
-    from strainline.optimizer.front import CAUTION, format_table, write_outputs
+    from strainline.optimizer.search.front import CAUTION, format_table, write_outputs
 
     front, out_dir = solve(args.study, args.out, args.method, args.budget, args.seed, quiet=args.quiet)
     if getattr(args, "verify", False):
-        from strainline.optimizer.progress import Progress
-        from strainline.optimizer.verify import verify_front
+        from strainline.optimizer.cli.progress import Progress
+        from strainline.optimizer.search.verify import verify_front
 
         prog = Progress("verify", quiet=args.quiet)
         front = verify_front(front, workers=max(1, args.workers), dask_address=args.dask, progress=prog.update)

@@ -1,0 +1,1 @@
+"""The ``strainline`` command line: entry point and one module per command."""

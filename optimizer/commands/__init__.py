@@ -1,1 +1,0 @@
-"""One module per ``strainline`` subcommand; each has ``register(subparsers)`` and ``run(args)``."""

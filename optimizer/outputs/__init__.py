@@ -1,0 +1,1 @@
+"""Writing outputs: front files, the HTML report, fabricator sheets and terminal tables."""
