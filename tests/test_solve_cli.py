@@ -183,7 +183,7 @@ def test_front_csv_has_one_row_per_candidate(solved):
 
 
 def test_front_dataframe_view(solved):
-    from strainline.optimizer.search.front import front_dataframe
+    from strainline.optimizer.outputs.frontfiles import front_dataframe
 
     front, _ = solved
     df = front_dataframe(front)

@@ -12,7 +12,8 @@ from strainline.models.lines import LineGeometry, composite_er, evaluate_line
 from strainline.models.units import MM, UM
 from strainline.optimizer.inputs.catalog import load_catalog
 from strainline.optimizer.search.front import candidate_stackup
-from strainline.optimizer.search.problem import build_problem, composite_df
+from strainline.optimizer.search.linetable import composite_df
+from strainline.optimizer.search.problem import build_problem
 from strainline.optimizer.search.space import build_space, cu_col
 from strainline.optimizer.inputs.study import validate_study
 

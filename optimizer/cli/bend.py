@@ -10,7 +10,7 @@ import json
 import math
 from typing import Any
 
-from strainline.optimizer.outputs.bend_report import INSIDES, MOTIONS, USES, bend_report
+from strainline.optimizer.search.bend_report import INSIDES, MOTIONS, USES, bend_report
 from strainline.optimizer.inputs.catalog import load_catalog
 from strainline.optimizer.inputs.stackup_file import load_stackup
 

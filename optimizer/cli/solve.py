@@ -62,7 +62,7 @@ def solve(study_path: str | Path, out: str | Path | None = None, method: str | N
         No progress bar.
     """
     from strainline.optimizer.inputs.catalog import load_catalog
-    from strainline.optimizer.search.front import build_front, write_outputs
+    from strainline.optimizer.search.front import build_front
     from strainline.optimizer.search.problem import build_problem
     from strainline.optimizer.cli.progress import Progress
     from strainline.optimizer.search.engine import search
@@ -99,7 +99,8 @@ def solve(study_path: str | Path, out: str | Path | None = None, method: str | N
 
 
 def run(args: argparse.Namespace) -> int:
-    from strainline.optimizer.search.front import CAUTION, format_table, write_outputs
+    from strainline.optimizer.search.front import CAUTION
+    from strainline.optimizer.outputs.frontfiles import format_table, write_outputs
 
     front, out_dir = solve(args.study, args.out, args.method, args.budget, args.seed, quiet=args.quiet)
     if getattr(args, "verify", False):

@@ -214,7 +214,7 @@ def _dielectric(rd: _Reader, entry: dict, field: str, catalog, n: int) -> Layer:
         for k in ("thickness_um", "modulus_gpa", "poisson"):
             if k not in entry:
                 raise rd.err(f"{field}.{k}", "missing; an inline dielectric gives thickness_um, modulus_gpa and "
-                                             f"poisson (or name a catalog material with material:)")
+                                             "poisson (or name a catalog material with material:)")
         t = rd.number(entry, "thickness_um", field, lo=0.0, lo_open=True) * UM
         e = rd.number(entry, "modulus_gpa", field, lo=0.0, lo_open=True) * GPA
         nu = rd.number(entry, "poisson", field, lo=0.0, hi=0.5, hi_open=True)

@@ -4,9 +4,7 @@ from __future__ import annotations
 import os
 import tempfile
 from pathlib import Path
-from typing import Any
 
-from strainline.optimizer.errors import StrainlineError
 
 
 def write_atomic(path: str | os.PathLike[str], data: str | bytes) -> Path:

@@ -7,11 +7,7 @@ short text table ``strainline solve`` prints.
 """
 from __future__ import annotations
 
-import csv
-import io
-import json
 import math
-from pathlib import Path
 from typing import Any
 
 import numpy as np
@@ -19,7 +15,8 @@ import numpy as np
 from strainline.models.stackup import Layer, Stackup
 from strainline.models.units import UM
 from strainline.optimizer.search.problem import CONSTRAINT_TEXT, Problem
-from strainline.optimizer.search.engine import SearchResult, _dominated_by, hypervolume
+from strainline.optimizer.search.archive import _dominated_by, hypervolume
+from strainline.optimizer.search.engine import SearchResult
 from strainline.optimizer.search.space import Space, cu_col, gap_cols
 
 CAUTION = (
@@ -114,7 +111,7 @@ def build_front(problem: Problem, result: SearchResult, catalog: Any, seed: int,
     from strainline.models.lines import LineGeometry
     from strainline.models.lines.evaluate import method_findings, methods_used, range_findings
     from strainline.optimizer import __version__
-    from strainline.optimizer.outputs.bend_report import bend_report
+    from strainline.optimizer.search.bend_report import bend_report
 
     sp = problem.space
     study = sp.study
@@ -312,121 +309,4 @@ def explain_infeasible(problem: Problem, arch) -> dict[str, Any]:
     return out
 
 
-# ------------------------------------------------------------------------------------------------
-def _flatten(prefix: str, value: Any, out: dict[str, Any]) -> None:
-    if isinstance(value, dict):
-        for k, v in value.items():
-            _flatten(f"{prefix}.{k}" if prefix else str(k), v, out)
-    elif isinstance(value, list):
-        if value and all(isinstance(v, dict) for v in value):
-            for i, v in enumerate(value):
-                _flatten(f"{prefix}.{i + 1}", v, out)
-        else:
-            out[prefix] = ";".join(str(v) for v in value)
-    else:
-        out[prefix] = value
-
-
-def flat_rows(front: dict[str, Any]) -> list[dict[str, Any]]:
-    """One flat dict per candidate (dotted column names; layers numbered top to bottom from 1)."""
-    rows = []
-    for c in front["candidates"]:
-        r: dict[str, Any] = {}
-        c2 = dict(c)
-        c2["findings"] = [f["code"] for f in c.get("findings", [])]
-        _flatten("", c2, r)
-        rows.append(r)
-    return rows
-
-
-def front_dataframe(front: dict[str, Any]):
-    """The front as a pandas DataFrame, one flat row per candidate (same columns as front.csv)."""
-    import pandas as pd
-
-    return pd.DataFrame(flat_rows(front))
-
-
-def front_csv(front: dict[str, Any]) -> str:
-    """``front.csv`` text: one flat row per candidate, header from the union of columns, and a last
-    ``caution`` column so a spreadsheet opened on its own still carries the caution."""
-    rows = flat_rows(front)
-    cols: list[str] = []
-    for r in rows:
-        for k in r:
-            if k not in cols:
-                cols.append(k)
-    if rows:
-        cols.append("caution")
-    caution = front.get("caution", CAUTION)
-    buf = io.StringIO()
-    w = csv.DictWriter(buf, fieldnames=cols or ["id"], lineterminator="\n")
-    w.writeheader()
-    for r in rows:
-        w.writerow({**{k: ("" if r.get(k) is None else r.get(k)) for k in cols}, "caution": caution})
-    return buf.getvalue()
-
-
-def write_outputs(front: dict[str, Any], out_dir: Path) -> list[Path]:
-    """Write ``front.json`` and ``front.csv`` into ``out_dir`` atomically; return the paths.
-
-    The report and handoff writers extend this function (one place for every output file).
-    """
-    from strainline.optimizer.outputs.fileio import write_atomic
-
-    out_dir = Path(out_dir)
-    paths = [
-        write_atomic(out_dir / "front.json", json.dumps(front, indent=1, allow_nan=False) + "\n"),
-        write_atomic(out_dir / "front.csv", front_csv(front)),
-    ]
-    from strainline.optimizer.outputs.report import write_all   # report.html + handoff/ (built in memory first)
-
-    paths += write_all(front, out_dir)
-    return paths
-
-
-def format_table(front: dict[str, Any], limit: int = 25) -> str:
-    """The short text table ``strainline solve`` prints."""
-    s = front["search"]
-    lines = [f"study {front['study'].get('name', '')}: {s['method']} search, {s['evaluated']:,} evaluated of "
-             f"{s['space_size']:,}, {s['feasible']:,} feasible, {len(front['candidates'])} on the front"
-             + (f", hypervolume {s['hypervolume']:.4f}" if s.get("hypervolume") else "")
-             + f" ({s['seconds']:.1f} s)"]
-    cands = front["candidates"]
-    if not cands:
-        lines.append(s.get("infeasible", {}).get("message", "no feasible stackup"))
-        return "\n".join(lines)
-    okeys = list(cands[0]["objectives"])
-    head = ["id"] + okeys + ["layer", "width_um", "gap_um", "z_ohm", "thick_um", "peak_%", "cycles"]
-    table = [head]
-    for c in cands[:limit]:
-        ln = c["line"]
-        z = ln["z_diff_ohm"] if ln["z_diff_ohm"] is not None else ln["z0_ohm"]
-        cyc = c["bend"]["cycles_to_failure"]
-        row = [c["id"]] + [_fmt(c["objectives"][k]) for k in okeys] + [
-            f"L{ln['layer']}", _fmt(ln["width_um"]), _fmt(ln["gap_um"]), _fmt(z),
-            _fmt(c["bend"]["total_thickness_um"]), _fmt(c["bend"]["peak_copper_strain_pct"]),
-            "-" if cyc is None else f"{cyc:.3g}"]
-        table.append(row)
-    widths = [max(len(r[i]) for r in table) for i in range(len(head))]
-    for r in table:
-        lines.append("  ".join(v.rjust(w) for v, w in zip(r, widths)))
-    if len(cands) > limit:
-        lines.append(f"... {len(cands) - limit} more in front.json / front.csv")
-    return "\n".join(lines)
-
-
-def _fmt(v: Any) -> str:
-    if v is None:
-        return "-"
-    if isinstance(v, float):
-        a = abs(v)
-        if a >= 1e5:
-            return f"{v:.3g}"
-        if a >= 100:
-            return f"{v:.1f}"
-        return f"{v:.3f}" if a < 10 else f"{v:.2f}"
-    return str(v)
-
-
-__all__ = ["build_front", "write_outputs", "front_dataframe", "front_csv", "format_table", "candidate_stackup",
-           "CAUTION"]
+__all__ = ["build_front", "candidate_stackup", "CAUTION"]
