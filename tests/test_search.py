@@ -11,7 +11,7 @@ from strainline.optimizer.inputs.catalog import load_catalog
 from strainline.optimizer.search.problem import build_problem
 from strainline.optimizer.search.engine import (
     Archive, additive_epsilon, choose_method, evolutionary, exhaustive, hypervolume, nondominated_mask,
-    random_search, AUTO_EXHAUSTIVE_MAX,
+    random_search, search,
 )
 from strainline.optimizer.search.space import build_space
 from strainline.optimizer.inputs.study import validate_study
@@ -152,10 +152,37 @@ def test_evolutionary_stops_on_stagnation():
     assert as_set(r.archive.F) == {(0.0, 0.0)}
 
 
-def test_auto_threshold():
-    assert choose_method("auto", AUTO_EXHAUSTIVE_MAX) == "exhaustive"
-    assert choose_method("auto", AUTO_EXHAUSTIVE_MAX + 1) == "evolutionary"
+def test_auto_by_projected_time():
+    # 6e7 candidates at 1e6/s on one worker is 60 s: at the limit; twice that needs two workers
+    assert choose_method("auto", 60_000_000, 1e6, 1, 60.0) == "exhaustive"
+    assert choose_method("auto", 120_000_000, 1e6, 1, 60.0) == "evolutionary"
+    assert choose_method("auto", 120_000_000, 1e6, 2, 60.0) == "exhaustive"
     assert choose_method("evolutionary", 10) == "evolutionary"
+
+
+def test_auto_enumerates_a_small_space_and_projects_a_large_one():
+    ev, sizes = synthetic(n_var=4, base=7)
+    r = search(ev, sizes, 3, 1, "auto", budget=500, workers=1)
+    assert r.method == "exhaustive" and r.evaluated == 7**4
+    assert r.info["rate_per_s"] > 0 and r.info["projected_s"] >= 0
+    # a zero time limit sends the same space to the evolutionary search, and says why
+    said = []
+    r = search(ev, sizes, 3, 1, "auto", budget=500, workers=1, time_limit_s=0.0, notify=said.append)
+    assert r.method == "evolutionary" and "projected" in said[0]
+
+
+def test_exhaustive_projected_past_a_day_is_refused_unless_forced():
+    from strainline.optimizer.errors import StudyError
+
+    sizes = np.full(20, 40)                # 1.1e32 > 2**62: never enumerable
+
+    def ev(x):
+        return x[:, :2].astype(float), np.zeros((len(x), 0))
+    with pytest.raises(StudyError, match="too many to enumerate"):
+        search(ev, sizes, 2, 0, "exhaustive", workers=1, force=True)
+    sizes = np.full(10, 60)                # 6e17 candidates: projected far past a day at any rate here
+    with pytest.raises(StudyError, match="projected at .* days.*--force"):
+        search(ev, sizes, 2, 0, "exhaustive", workers=1)
 
 
 # ------------------------------------------------------------------------------------------------

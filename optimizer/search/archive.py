@@ -2,7 +2,9 @@
 
 * :class:`Archive` -- a streaming non-dominated filter: feed it batches, it keeps exactly the
   feasible non-dominated points seen so far (one representative per distinct objective vector,
-  the first seen), so memory is bounded by the front, not by the space.
+  the one of smallest index), so memory is bounded by the front, not by the space. Archives of
+  disjoint index ranges merge (:meth:`Archive.merge`) into exactly the archive of their union, so
+  a front does not depend on how the work was split.
 * :func:`hypervolume` -- exact hypervolume in normalized objective space (pymoo's ``HV``
   indicator, exact for the dimensions we use); :func:`additive_epsilon`.
 """
@@ -15,11 +17,12 @@ import numpy as np
 
 # ---------------------------------------------------------------------------------------------
 # non-dominated filtering
-def nondominated_mask(F: np.ndarray) -> np.ndarray:
-    """Mask of the non-dominated rows of ``F`` (minimization), duplicates kept once (first row).
+def nondominated_mask(F: np.ndarray, tiebreak: np.ndarray | None = None) -> np.ndarray:
+    """Mask of the non-dominated rows of ``F`` (minimization), duplicates kept once.
 
     Exact. Rows are processed in lexicographic order so a row can only be dominated by earlier
-    ones; 2-objective sets use a running-minimum scan, others a blocked pairwise test.
+    ones; 2-objective sets use a running-minimum scan, others a blocked pairwise test. Of equal
+    rows the first is kept, or the one of smallest ``tiebreak`` when given.
     """
     F = np.asarray(F, float)
     n = F.shape[0]
@@ -27,7 +30,8 @@ def nondominated_mask(F: np.ndarray) -> np.ndarray:
     if n == 0:
         return mask
     # lexicographic order (stable, so equal rows keep their input order); drop repeats
-    order = np.lexsort(F.T[::-1])
+    keys = tuple(F.T[::-1]) if tiebreak is None else (np.asarray(tiebreak),) + tuple(F.T[::-1])
+    order = np.lexsort(keys)
     S = F[order]
     first_of_run = np.ones(n, bool)
     first_of_run[1:] = np.any(S[1:] != S[:-1], axis=1)
@@ -66,51 +70,89 @@ def _nd_blocked(S: np.ndarray) -> np.ndarray:
 
 
 @dataclass
+class SearchResult:
+    """Outcome of a search: the archive front and how it was found.
+
+    ``info`` holds what the search did, for the summary (``front.json`` search section): the
+    rate in candidates per second, the workers, generations, the seeding scan, skipped blocks.
+    """
+
+    method: str
+    archive: "Archive"
+    evaluated: int
+    space_size: int
+    seconds: float
+    stopped: str = ""
+    history: list[tuple[int, float]] = field(default_factory=list)   # (evaluations, archive HV)
+    info: dict = field(default_factory=dict)
+
+
+def _hash64(index: np.ndarray) -> np.ndarray:
+    """SplitMix64 finalizer of int64 indices (Steele, Lea & Flood 2014): reproducible uniform keys."""
+    z = np.asarray(index, np.int64).astype(np.uint64) + np.uint64(0x9E3779B97F4A7C15)
+    z = (z ^ (z >> np.uint64(30))) * np.uint64(0xBF58476D1CE4E5B9)
+    z = (z ^ (z >> np.uint64(27))) * np.uint64(0x94D049BB133111EB)
+    return z ^ (z >> np.uint64(31))
+
+
+@dataclass
 class Archive:
     """Streaming exact non-dominated filter over feasible points.
 
-    ``F`` (m, n_obj) objectives, ``X`` (m, n_var) variables and ``payload`` (an optional integer
-    per point, e.g. the candidate index) of the current front. Infeasible points never enter; the
-    archive tracks the least-violating ones for the "nothing feasible" report.
+    ``F`` (m, n_obj) objectives, ``X`` (m, n_var) variables and ``index`` (m,) of the current
+    front. Every added row has an integer index: the candidate index of an enumeration (``start``
+    of :meth:`add`), else its position in the stream. Of equal objective vectors the archive
+    keeps the smallest index, so archives of disjoint ranges merged with :meth:`merge` equal the
+    archive of one pass over their union, bit for bit. Infeasible points never enter; the archive
+    tracks the least-violating one for the "nothing feasible" report.
+
+    Batches given to :meth:`add` must come in increasing index order (a stream or consecutive
+    ranges); archives of any ranges combine with :meth:`merge`.
     """
 
     n_obj: int
     n_var: int
     F: np.ndarray = field(init=False)
     X: np.ndarray = field(init=False)
+    index: np.ndarray = field(init=False)
     seen: int = 0
     feasible: int = 0
     near_cv: float = np.inf
     near_X: np.ndarray | None = None
     near_G: np.ndarray | None = None
+    near_index: int = -1
     violated: np.ndarray | None = None     # per constraint: how many candidates violate it
     #: Size of the uniform sample of feasible objective vectors kept for the report's background
-    #: (bottom-k sampling on seeded random keys: uniform over the stream, reproducible).
+    #: (bottom-k sampling on hashed indices: uniform, reproducible, and independent of the split).
     sample_size: int = 1000
     sample_F: np.ndarray = field(init=False)
     _sample_keys: np.ndarray = field(init=False, repr=False)
-    _sample_rng: np.random.Generator = field(init=False, repr=False)
 
     def __post_init__(self) -> None:
         self.F = np.empty((0, self.n_obj))
         self.X = np.empty((0, self.n_var), np.int64)
+        self.index = np.empty(0, np.int64)
         self.sample_F = np.empty((0, self.n_obj))
-        self._sample_keys = np.empty(0)
-        self._sample_rng = np.random.default_rng(0)
+        self._sample_keys = np.empty(0, np.uint64)
 
-    def _sample(self, Fb: np.ndarray) -> None:
-        keys = np.concatenate([self._sample_keys, self._sample_rng.random(len(Fb))])
+    def _sample(self, Fb: np.ndarray, keys: np.ndarray) -> None:
+        keys = np.concatenate([self._sample_keys, keys])
         Fs = np.concatenate([self.sample_F, Fb])
         if len(keys) > self.sample_size:
-            keep = np.argpartition(keys, self.sample_size - 1)[: self.sample_size]
+            keep = np.sort(np.argpartition(keys, self.sample_size - 1)[: self.sample_size])
             keys, Fs = keys[keep], Fs[keep]
-        self._sample_keys, self.sample_F = keys, Fs
+        order = np.argsort(keys, kind="stable")        # a canonical order, whatever the split
+        self._sample_keys, self.sample_F = keys[order], Fs[order]
 
-    def add(self, X: np.ndarray, F: np.ndarray, G: np.ndarray) -> int:
-        """Merge a batch; return how many archive points changed (0 = no improvement)."""
+    def add(self, X: np.ndarray, F: np.ndarray, G: np.ndarray, start: int | None = None) -> int:
+        """Merge a batch; return how many archive points changed (0 = no improvement).
+
+        Row ``i`` has index ``start + i`` (default: the stream position, ``seen + i``).
+        """
         X = np.asarray(X, np.int64)
         F = np.asarray(F, float)
         G = np.asarray(G, float)
+        start = self.seen if start is None else int(start)
         self.seen += len(X)
         if G.shape[1]:
             # column by column: fast for any memory order (numpy reduces short rows slowly)
@@ -127,30 +169,55 @@ class Archive:
                 for k in range(1, G.shape[1]):
                     cv += np.maximum(G[:, k], 0.0)
                 cv = np.where(feas, np.inf, cv)
-                k = int(np.argmin(cv))
+                k = int(np.argmin(cv))                  # the first of equal violations
                 if cv[k] < self.near_cv:
                     self.near_cv, self.near_X, self.near_G = float(cv[k]), X[k].copy(), G[k].copy()
+                    self.near_index = start + k
         else:
             feas = np.all(np.isfinite(F), axis=1)
-        self.feasible += int(feas.sum())
-        if not feas.any():
+        rows = np.flatnonzero(feas)
+        self.feasible += len(rows)
+        if not len(rows):
             return 0
-        Fb, Xb = F[feas], X[feas]
+        Fb, Xb, Ib = F[rows], X[rows], rows.astype(np.int64) + start
         if self.sample_size:
-            self._sample(Fb)
-        # quick pre-screen against the current front (most points of a big batch are dominated)
+            self._sample(Fb, _hash64(Ib))
+        # quick pre-screen against the current front (most points of a big batch are dominated;
+        # an equal point already archived has a smaller index)
         if len(self.F):
             dom = _dominated_by(Fb, self.F)
-            Fb, Xb = Fb[~dom], Xb[~dom]
+            Fb, Xb, Ib = Fb[~dom], Xb[~dom], Ib[~dom]
             if not len(Fb):
                 return 0
+        return self._absorb(Fb, Xb, Ib)
+
+    def _absorb(self, Fb: np.ndarray, Xb: np.ndarray, Ib: np.ndarray) -> int:
         Fc = np.concatenate([self.F, Fb])
         Xc = np.concatenate([self.X, Xb])
-        m = nondominated_mask(Fc)
+        Ic = np.concatenate([self.index, Ib])
+        m = nondominated_mask(Fc, Ic)
         old = len(self.F)
         changed = int((~m[:old]).sum() + m[old:].sum())
-        self.F, self.X = Fc[m], Xc[m]
+        keep = np.flatnonzero(m)
+        keep = keep[np.argsort(Ic[keep], kind="stable")]     # front in index order
+        self.F, self.X, self.index = Fc[keep], Xc[keep], Ic[keep]
         return changed
+
+    def merge(self, other: "Archive") -> "Archive":
+        """Absorb the archive of a disjoint index range; the result does not depend on the order."""
+        self.seen += other.seen
+        self.feasible += other.feasible
+        if other.violated is not None:
+            self.violated = other.violated.copy() if self.violated is None else self.violated + other.violated
+        mine = (self.near_cv, self.near_index if self.near_X is not None else 2**63)
+        if other.near_X is not None and (other.near_cv, other.near_index) < mine:
+            self.near_cv, self.near_X, self.near_G = other.near_cv, other.near_X, other.near_G
+            self.near_index = other.near_index
+        if self.sample_size and len(other.sample_F):
+            self._sample(other.sample_F, other._sample_keys)
+        if len(other.F):
+            self._absorb(other.F, other.X, other.index)
+        return self
 
 
 def _dominated_by(A: np.ndarray, P: np.ndarray) -> np.ndarray:

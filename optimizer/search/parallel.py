@@ -1,0 +1,161 @@
+"""Exhaustive enumeration on every core and on a Dask cluster.
+
+The index space is cut into consecutive ranges (:func:`~strainline.optimizer.search.exhaustive.split_ranges`),
+each range is a task that returns the exact :class:`~strainline.optimizer.search.archive.Archive` of its
+candidates, and the archives merge (:meth:`Archive.merge`, independent of the order the tasks finish in)
+into exactly the archive of one pass: the front is the same, bit for bit, however the work is split.
+
+The evaluator travels to the workers pickled (:class:`ProblemEvaluator` wraps a study problem; a
+3-copper study's problem pickles in ~3 ms to ~1.3 MB, against ~0.2 s to rebuild it from the study
+and the catalog), once per worker: as the initializer argument of a local process pool, or
+scattered to every Dask worker.
+"""
+from __future__ import annotations
+
+import os
+import time
+from collections.abc import Callable
+from concurrent.futures import ProcessPoolExecutor, as_completed
+from typing import Any
+
+import numpy as np
+
+from strainline.optimizer.search.archive import Archive
+from strainline.optimizer.search.exhaustive import CHUNK, _ChunkDigits, exhaustive_range, split_ranges
+
+#: Tasks per worker: enough for the progress bar and for balancing uneven ranges.
+TASKS_PER_WORKER = 6
+
+
+class ProblemEvaluator:
+    """A picklable ``evaluate(x) -> (F, G)`` of a study problem (``prune``: skip the bend model
+    for candidates whose line already fails, :meth:`Problem.evaluate`)."""
+
+    def __init__(self, problem: Any, prune: bool = True) -> None:
+        self.problem = problem
+        self.prune = prune
+
+    def __call__(self, x: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        e = self.problem.evaluate(x, prune=self.prune)
+        return e.F, e.G
+
+
+def default_workers() -> int:
+    """Cores this process may run on."""
+    try:
+        return max(1, len(os.sched_getaffinity(0)))
+    except AttributeError:          # not on Linux
+        return max(1, os.cpu_count() or 1)
+
+
+# --------------------------------------------------------------------------------------------- tasks
+_WORKER: dict[str, Any] = {}
+
+
+def _init_worker(evaluate: Any) -> None:
+    _WORKER["evaluate"] = evaluate
+
+
+def _local_task(sizes: np.ndarray, n_obj: int, a: int, b: int, chunk: int) -> tuple[Archive, float]:
+    t0 = time.perf_counter()
+    arch = exhaustive_range(_WORKER["evaluate"], sizes, n_obj, a, b, chunk)
+    return arch, time.perf_counter() - t0
+
+
+def _dask_task(evaluate: Any, sizes: np.ndarray, n_obj: int, a: int, b: int, chunk: int) -> tuple[Archive, float]:
+    t0 = time.perf_counter()
+    arch = exhaustive_range(evaluate, sizes, n_obj, a, b, chunk)
+    return arch, time.perf_counter() - t0
+
+
+def run_ranges(evaluate: Callable, sizes: np.ndarray, n_obj: int, start: int, stop: int, workers: int = 1,
+               dask_address: str | None = None, progress: Callable[[int], None] | None = None,
+               chunk: int = CHUNK, archive: Archive | None = None) -> tuple[Archive, int]:
+    """Enumerate ``[start, stop)`` on ``workers`` local processes or a Dask cluster.
+
+    Parameters
+    ----------
+    evaluate : callable
+        ``evaluate(x) -> (F, G)``; must pickle for more than one worker (:class:`ProblemEvaluator`).
+    sizes : array of int
+    n_obj : int
+    start, stop : int
+        The index range.
+    workers : int
+        Local worker processes (1 = this process). Ignored with ``dask_address``.
+    dask_address : str, optional
+        Address of a Dask scheduler (``tcp://host:8786``).
+    progress : callable, optional
+        ``progress(n)`` as candidates finish.
+    archive : Archive, optional
+        Merge into this archive (of indices outside the range).
+
+    Returns
+    -------
+    archive : Archive
+        The merged archive.
+    workers : int
+        Workers that took part (Dask: the cluster's worker threads).
+    """
+    sizes = np.asarray(sizes, np.int64)
+    arch = archive if archive is not None else Archive(n_obj, sizes.size)
+    align = _ChunkDigits(sizes, chunk).chunk
+    if dask_address:
+        return _run_dask(evaluate, sizes, n_obj, start, stop, dask_address, progress, chunk, align, arch)
+    if workers <= 1 or stop - start <= align:
+        exhaustive_range(evaluate, sizes, n_obj, start, stop, chunk, progress, arch)
+        return arch, 1
+    ranges = split_ranges(start, stop, workers * TASKS_PER_WORKER, align)
+    with ProcessPoolExecutor(max_workers=workers, initializer=_init_worker, initargs=(evaluate,)) as pool:
+        futures = {pool.submit(_local_task, sizes, n_obj, a, b, chunk): b - a for a, b in ranges}
+        for fut in as_completed(futures):
+            part, _ = fut.result()
+            arch.merge(part)
+            if progress is not None:
+                progress(futures[fut])
+    return arch, workers
+
+
+def _run_dask(evaluate, sizes, n_obj, start, stop, address, progress, chunk, align, arch):
+    from strainline.optimizer.errors import InputError
+
+    try:
+        from dask.distributed import Client
+        from dask.distributed import as_completed as dask_as_completed
+    except ImportError as exc:
+        raise InputError("a Dask cluster needs the optional extra: pip install 'strainline[cluster]'",
+                         "--dask") from exc
+    try:
+        client = Client(address, timeout="10s")
+    except (OSError, TimeoutError, ValueError) as exc:
+        raise InputError(f"cannot reach the Dask scheduler at {address!r} ({exc})", "--dask") from exc
+    try:
+        threads = max(1, sum(client.nthreads().values()))
+        ev = client.scatter(evaluate, broadcast=True)
+        ranges = split_ranges(start, stop, threads * TASKS_PER_WORKER, align)
+        futures = [client.submit(_dask_task, ev, sizes, n_obj, a, b, chunk, pure=False) for a, b in ranges]
+        size_of = {f.key: b - a for f, (a, b) in zip(futures, ranges)}
+        for fut in dask_as_completed(futures):
+            part, _ = fut.result()
+            arch.merge(part)
+            if progress is not None:
+                progress(size_of[fut.key])
+    finally:
+        client.close()
+    return arch, threads
+
+
+def cluster_threads(address: str) -> int:
+    """Worker threads of the Dask cluster at ``address`` (for the time projection)."""
+    from strainline.optimizer.errors import InputError
+
+    try:
+        from dask.distributed import Client
+    except ImportError as exc:
+        raise InputError("a Dask cluster needs the optional extra: pip install 'strainline[cluster]'",
+                         "--dask") from exc
+    try:
+        with Client(address, timeout="10s") as client:
+            return max(1, sum(client.nthreads().values()))
+    except (OSError, TimeoutError, ValueError) as exc:
+        raise InputError(f"cannot reach the Dask scheduler at {address!r} ({exc})", "--dask") from exc
