@@ -237,3 +237,89 @@ def test_report_command_rebuilds_the_same_files(built, tmp_path):
     assert names == sorted(p.name for p in (copy / "handoff").iterdir())
     for name in names:
         assert (copy / "handoff" / name).read_bytes() == (out / "handoff" / name).read_bytes(), name
+
+
+# ----------------------------------------------------------------------------- injection
+#: every placeholder of the old string-replaced template, Jinja syntax, and markup that would run if
+#: pasted into the page unescaped
+OLD_PLACEHOLDERS = ["%%TITLE%%", "%%CSS%%", "%%CAUTION%%", "%%CONVENTION%%", "%%SEARCH%%", "%%STUDY%%",
+                    "%%PLOTLY%%", "%%DATA%%", "%%APP%%"]
+HOSTILE_DESCRIPTION = (" ".join(OLD_PLACEHOLDERS) + " {{ 7 * 7 }} {% if true %}x{% endif %} "
+                       "</script><script>window.__pwned = 'description'</script>"
+                       "<img src=x onerror=\"window.__pwned = 'img'\"> \u2028 <!-- -->")
+HOSTILE_LAYER = "</script><svg onload=\"window.__pwned = 'layer'\"></svg>"
+HOSTILE_KEY = "<img src=x onerror=alert(1)>"
+HOSTILE_MATERIAL = "\"><img src=x onerror=alert(2)>"
+
+
+@pytest.fixture(scope="module")
+def tampered(tmp_path_factory):
+    """A front.json tampered by hand (hostile description, objective key, layer name, material and search
+    key), turned into a report by `strainline report`."""
+    out = tmp_path_factory.mktemp("tampered")
+    front = json.loads(FIXTURE.read_text(encoding="utf-8"))
+    front["study"]["description"] = HOSTILE_DESCRIPTION
+    front["study"]["name"] = "%%DATA%% </title><script>window.__pwned = 'name'</script>"
+    front["search"][HOSTILE_KEY] = HOSTILE_LAYER
+    for c in front["candidates"]:
+        c["objectives"][HOSTILE_KEY] = c["objectives"].pop("loss_db_per_m")
+        c["layers"][0]["name"] = HOSTILE_LAYER
+    front["candidates"][1]["layers"][1]["material"] = HOSTILE_MATERIAL
+    for d in front["dominated"]:
+        d["objectives"][HOSTILE_KEY] = d["objectives"].pop("loss_db_per_m", None)
+    (out / "front.json").write_text(json.dumps(front), encoding="utf-8")
+    assert main(["report", str(out), "--quiet"]) == 0
+    return out, front
+
+
+def _hostile_page(ctx, url):
+    page = ctx.new_page()
+    log = {"errors": [], "dialogs": []}
+    page.on("pageerror", lambda e: log["errors"].append(str(e)))
+    page.on("dialog", lambda d: (log["dialogs"].append(d.message), d.dismiss()))
+    page.goto(url)
+    return page, log
+
+
+def test_hostile_front_json_text_shows_literally_and_runs_nothing(browser_ctx, tampered):
+    out, front = tampered
+    page, log = _hostile_page(browser_ctx, (out / "report.html").as_uri())
+    try:
+        page.wait_for_function("window.strainline && window.strainline.renders > 0", timeout=30000)
+        for i in range(len(front["candidates"])):          # draw every candidate, the parallel coordinates too
+            page.evaluate(f"window.strainline.select({i})")
+        page.locator("#parcoords").scroll_into_view_if_needed()
+        page.wait_for_function("document.querySelectorAll('#parcoords .y-axis').length >= 2", timeout=30000)
+        page.hover("#cand-table tbody tr:nth-child(2)")
+        page.wait_for_timeout(300)
+        assert page.evaluate("window.__pwned") is None
+        assert log["dialogs"] == [] and log["errors"] == []
+        # the text is shown as written
+        study = page.inner_text("#study-inputs")
+        for piece in OLD_PLACEHOLDERS + ["{{ 7 * 7 }}", "</script><script>window.__pwned = 'description'</script>"]:
+            assert piece in study, piece
+        assert HOSTILE_LAYER in page.inner_text("#layer-table")
+        assert HOSTILE_KEY in page.inner_text("#search-summary")
+        assert "%%DATA%% </title><script>" in page.title()
+        heads = page.evaluate("[...document.querySelectorAll('#cand-table thead th')].map(th => th.dataset.k)")
+        assert HOSTILE_KEY in heads                          # the key is an attribute value, not markup
+        assert page.locator("#cand-table img, #layer-table svg, #study-inputs script, main img").count() == 0
+    finally:
+        page.close()
+
+
+def test_hostile_front_json_text_in_sheets_runs_nothing(browser_ctx, tampered):
+    out, front = tampered
+    for name in (f"{front['candidates'][1]['id']}.html", "index.html"):
+        page, log = _hostile_page(browser_ctx, (out / "handoff" / name).as_uri())
+        try:
+            page.wait_for_load_state("load")
+            page.wait_for_timeout(200)
+            assert page.evaluate("window.__pwned") is None
+            assert log["dialogs"] == [] and log["errors"] == []
+            if name != "index.html":
+                text = page.inner_text("body")
+                assert HOSTILE_LAYER in text and HOSTILE_MATERIAL in text
+                assert page.locator("svg, img, script").count() == 0
+        finally:
+            page.close()
