@@ -1,0 +1,391 @@
+"""The study file as a pydantic model, and its conversion to :class:`~.study.Study`.
+
+The models below ARE the study format: sections, keys, types, ranges and defaults. The JSON
+Schema shipped for editors (``catalogs/study.schema.json``) is generated from them by
+:mod:`strainline.optimizer.inputs.schema`. Catalog names (foil weights, foils, dielectrics, ...)
+are checked against the catalog passed in the validation context; the schema lists the shipped
+catalog's names. Rules that join several fields (the copper layers a line type needs, the gap a
+pair needs, the leaves of an unbonded bend) are checked in :func:`build_study` after the model.
+"""
+from __future__ import annotations
+
+import re
+from pathlib import Path
+from typing import Annotated, Any
+
+from pydantic import ValidationError
+from pydantic_core import PydanticCustomError
+from strainline.optimizer.errors import StudyError, not_one_of
+from strainline.optimizer.inputs import study_spec as S
+from strainline.optimizer.inputs.modelkit import (
+    Base,
+    Kit,
+    Leaf,
+    Style,
+    fail,
+    first_error,
+    show,
+)
+
+
+class _StudyStyle(Style):
+    top = "study"
+
+
+K = Kit(_StudyStyle())
+_PCT = re.compile(r"\s*([0-9]+(?:\.[0-9]*)?|\.[0-9]+)\s*%\s*")
+
+
+def _shipped() -> Any:
+    from strainline.optimizer.inputs.catalog import load_catalog
+
+    return load_catalog()
+
+
+def _films(cat: Any) -> list[str]:
+    return [k for k, d in cat.dielectrics.items() if d.family != "adhesive"]
+
+
+def _adhesives(cat: Any) -> list[str]:
+    return [k for k, d in cat.dielectrics.items() if d.family == "adhesive"] + [S.NONE]
+
+
+def _covers(cat: Any) -> list[str]:
+    return list(cat.coverlays) + [k for k, d in cat.dielectrics.items() if d.family == "cover"] + [S.NONE]
+
+
+def _ctx(names: Any) -> Any:
+    """``names(catalog)`` for a validator (catalog from the context) and for the schema (shipped)."""
+    return (lambda ctx: names(ctx["catalog"])), (lambda: names(_shipped()))
+
+
+def _weight(value: Any, ctx: Any) -> Any:
+    from strainline.optimizer.inputs.catalog import weight_key
+
+    return weight_key(value, ctx["catalog"].weights) if isinstance(value, str) else value
+
+
+def _tolerance(value: Any, info: Any) -> tuple[float, str]:
+    return tolerance_of(value, info.context["catalog"])
+
+
+def tolerance_of(value: Any, catalog: Any) -> tuple[float, str]:
+    """A percent number (``10`` or ``"10%"``) or a catalog tolerance class -> (relative, label)."""
+    classes = dict(getattr(catalog.fabrication, "impedance_tolerance", {}) or {})
+    if isinstance(value, str):
+        m = _PCT.fullmatch(value)
+        if m:
+            value = float(m.group(1))
+        elif value in classes:
+            return float(classes[value]), value
+        else:
+            raise fail(not_one_of(None, value, list(classes) + ["<percent, e.g. 10%>"]).message)
+    pct = K.check_number(value, (0.0, 50.0, True, False))
+    return pct / 100.0, f"{pct:g}%"
+
+
+def _width_range(value: Any) -> tuple[float, float]:
+    if not (isinstance(value, list) and len(value) == 2):
+        raise fail(f"{show(value)} must be [min, max] in um")
+    lo, hi = (K.check_number(v, (1.0, 5000.0, False, False), sub=f"[{i}]") for i, v in enumerate(value))
+    if hi <= lo:
+        raise fail(f"{show(value)}: max must be larger than min")
+    return lo, hi
+
+
+def _signal_layer(value: Any) -> int | None:
+    if value == "auto":
+        return None
+    return int(K.check_number(value, (1, 8, False, False), integer=True))
+
+
+_THK = K.num_list(0.0, 2000.0)
+
+
+def _thickness_options(value: Any) -> Any:
+    """``[12.5, 25]`` (every listed material) or ``{material: [..]}``; names are checked later."""
+    check = _THK.__metadata__[0].check
+    if isinstance(value, dict):
+        out = {}
+        for k, vals in value.items():
+            try:
+                out[k] = check(vals)
+            except PydanticCustomError as exc:   # the same error with the material in the path
+                c = exc.context or {}
+                raise fail(c.get("message", exc.message()), f"{k}{c.get('sub', '')}") from None
+        return out
+    return check(value)
+
+
+def _leaves(value: Any) -> str | tuple[tuple[int, ...], ...]:
+    if value == "auto":
+        return "auto"
+    if not isinstance(value, list) or not value or not all(isinstance(g, list) and g for g in value):
+        raise fail(f"{show(value)} must be 'auto' or a list of lists of copper layer numbers, e.g. [[1, 2], [3, 4]]")
+    return tuple(tuple(int(K.check_number(n, (1, 8, False, False), integer=True, sub=f"[{i}][{j}]"))
+                       for j, n in enumerate(g)) for i, g in enumerate(value))
+
+
+def _catalog_path(value: Any) -> str:
+    if not isinstance(value, str) or not value.strip():
+        raise fail(f"{show(value)} must be the path of a catalog folder (relative to the study file)")
+    return value
+
+
+_NUM_LIST = {"type": "array", "items": {"type": "number", "exclusiveMinimum": 0}, "minItems": 1}
+
+
+def _thickness_schema(names: Any, description: str) -> Any:
+    return lambda: {"description": description, "oneOf": [
+        _NUM_LIST, {"type": "object", "propertyNames": {"enum": list(names(_shipped()))},
+                    "additionalProperties": _NUM_LIST}]}
+
+
+# ------------------------------------------------------------------------------------------------
+class LineModel(Base):
+    type: K.choice(S.LINE_KINDS, description="microstrip and coplanar sit on an outer copper layer under the "
+                   "cover; striplines on an inner layer")
+    target_ohm: K.num(5.0, 300.0, description="Z0 for single lines, differential impedance for pairs")
+    tolerance: Annotated[tuple, Leaf(_tolerance, {
+        "description": "a percent (10 or '10%') or a catalog tolerance class",
+        "oneOf": [{"type": "number", "exclusiveMinimum": 0, "maximum": 50}, {"type": "string"}]}, info=True)] = None
+    nominal_error_pct: K.num(0.0, 100.0, lo_open=True, description=(
+        "Largest nominal (as-designed) impedance error accepted, percent of the target; at most the tolerance. "
+        "Default: half the tolerance, leaving the rest for process scatter.")) = None
+    width_range_um: Annotated[tuple, Leaf(_width_range, {
+        "type": "array", "items": {"type": "number", "minimum": 1, "maximum": 5000}, "minItems": 2, "maxItems": 2,
+        "description": "[min, max] trace width the layout allows, um"})]
+    gap_um: K.num_list(1.0, 5000.0, description="pairs: edge-to-edge gap; coplanar: slot to the side grounds; "
+                       "one value or a list of options, um") = None
+    frequency_ghz: K.num(0.001, 100.0, description="frequency for the loss, GHz (default 1)") = 1.0
+
+
+_LEAVES_SCHEMA = {
+    "description": "unbonded region only: copper layers (1 = top) of each bonded leaf, top to bottom, e.g. "
+                   "[[1, 2], [3, 4]]; or auto (the search chooses among buildable groupings)",
+    "oneOf": [{"const": "auto"},
+              {"type": "array", "minItems": 1,
+               "items": {"type": "array", "minItems": 1, "items": {"type": "integer", "minimum": 1, "maximum": 8}}}]}
+
+
+class BendModel(Base):
+    inner_radius_mm: K.num(0.0, 1000.0, lo_open=True, description="radius of the inner (mandrel) face of the bend, mm")
+    inside: K.choice(("bottom", "top"), description="which face of the stack is the inside of the bend "
+                     "(default bottom)") = "bottom"
+    use: K.choice(("install", "dynamic"), description="one-time install bend or dynamic flexing "
+                  "(default dynamic)") = "dynamic"
+    cycles: K.num(1.0, 1e12, description="flex cycles the product needs (required for dynamic use)") = None
+    motion: K.choice(("flat-to-bent", "reversed"), description="flat->bent->flat (range = peak) or +R->-R "
+                     "(range = 2 x peak)") = "flat-to-bent"
+    region: K.choice(("bonded", "unbonded"), description="bonded bend region, or unbonded (gaps not bordering "
+                     "the signal layer become air gaps, or as bend.leaves says)") = "bonded"
+    leaves: Annotated[Any, Leaf(_leaves, _LEAVES_SCHEMA)] = None
+    allow_uncovered: K.boolean("a dynamic bend needs a cover on both outer faces unless this is true "
+                               "(default false)") = False
+    plane_strain: K.boolean("use E/(1-nu^2) for every layer (wide strip)") = False
+
+
+_FILMS, _FILMS_S = _ctx(_films)
+_ADH, _ADH_S = _ctx(_adhesives)
+_COV, _COV_S = _ctx(_covers)
+_WTS, _WTS_S = _ctx(lambda c: list(c.weights))
+_FOILS, _FOILS_S = _ctx(lambda c: list(c.foils))
+
+
+class StackModel(Base):
+    copper_layers: K.num(1, 8, integer=True)
+    symmetric: K.boolean("mirror the top half of the stack onto the bottom half") = False
+    signal_layer: Annotated[Any, Leaf(_signal_layer, {
+        "description": "copper layer (1 = top) carrying the line, or auto (free order only)",
+        "oneOf": [{"type": "integer", "minimum": 1, "maximum": 8}, {"const": "auto"}]})] = None
+    order: K.choice(("free", "fixed"), description=(
+        "free: the search places each gap's adhesive (below, above or both sides of its film) and, with "
+        "signal_layer auto, chooses the signal layer; fixed: adhesive on both sides, signal layer given")) = "free"
+    copper_weights: K.choice_list(_WTS, schema_allowed=_WTS_S, normalize=_weight,
+                                  description="foil weights allowed for every copper layer ('1/2oz', '0.5 oz' "
+                                  "and '1/2 oz' are the same foil)")
+    copper_types: K.choice_list(_FOILS, schema_allowed=_FOILS_S,
+                                description="copper foil types allowed (default rolled-annealed)") = ("rolled-annealed",)
+    dielectric: K.choice_list(_FILMS, schema_allowed=_FILMS_S,
+                              description="films or cores allowed between copper layers")
+    dielectric_thickness_um: Annotated[Any, Leaf(_thickness_options, _thickness_schema(
+        _films, "thickness options in um (a list for every dielectric, or per material); default: the catalog's "
+        "standard thicknesses"))] = None
+    adhesive: K.choice_list(_ADH, schema_allowed=_ADH_S,
+                            description="bond adhesives allowed in each gap; none = adhesiveless") = (S.NONE,)
+    adhesive_thickness_um: Annotated[Any, Leaf(_thickness_options, _thickness_schema(
+        lambda c: _adhesives(c)[:-1], "adhesive thickness options in um; default: the catalog's standard "
+        "thicknesses"))] = None
+    coverlay: K.choice_list(_COV, schema_allowed=_COV_S, description=(
+        "covers allowed on the outer faces (coverlay builds from the catalog, a cover-family dielectric, "
+        "or none)")) = (S.NONE,)
+    ground_coverage: K.num_list(0.0, 1.0, description="copper fraction options of the ground layers (1 = solid, "
+                                "below 1 = hatched)") = (1.0,)
+    signal_coverage: K.num(0.0, 1.0, lo_open=True, description="copper fraction of the signal layer in the bend "
+                           "(default 0.25)") = 0.25
+
+
+class LimitsModel(Base):
+    total_thickness_um: K.num(0.0, 100000.0, lo_open=True, description="maximum total thickness, um") = None
+    peak_strain_pct: K.num(0.0, 100.0, lo_open=True, description="maximum copper strain over all copper "
+                           "layers, percent") = None
+    signal_strain_pct: K.num(0.0, 100.0, lo_open=True, description="maximum strain in the signal copper, "
+                             "percent") = None
+    min_cycles: K.num(0.0, 1e15, lo_open=True, description="minimum Engelmaier fatigue life, cycles (default: "
+                      "bend.cycles for dynamic use)") = None
+    loss_db_per_m: K.num(0.0, 1e6, lo_open=True, description="maximum line loss at the frequency, dB/m") = None
+    elongation_fraction: K.num(0.0, 1.0, lo_open=True, description=(
+        "share of each dielectric, adhesive and cover's catalog elongation the bend may use (default 0.5)")) = 0.5
+
+
+class SearchModel(Base):
+    method: K.choice(("auto", "exhaustive", "evolutionary")) = "auto"
+    budget: K.num(100, 1e9, integer=True, description="evaluations of the evolutionary search") = 20000
+    seed: K.num(0, 2**32 - 1, integer=True) = 1
+    population: K.num(8, 100000, integer=True) = 100
+    impedance: K.choice(("field", "closed-form"), description=(
+        "impedance of the line table: field (closed form corrected by the field solver) or closed-form "
+        "(default field)")) = "field"
+
+
+class StudyModel(Base):
+    """A strainline study: the line, the bend, the stack family to search, limits, objectives and
+    search settings. Units are in every field name (um, mm, GHz, ohm, pct). See README.md, section
+    'Study files'."""
+
+    name: K.text(pattern=r"[A-Za-z0-9][A-Za-z0-9_.-]{0,79}", rule="a short name of letters, digits, '-', '_' or '.'",
+                 description="short name; the default output folder is out/<name>")
+    description: K.text() = ""
+    catalog: Annotated[str, Leaf(_catalog_path, {
+        "type": "string", "description": "a catalog folder (materials.yaml, copper.yaml, fabrication.yaml) "
+        "relative to the study file; default: the built-in catalog"})] = None
+    line: LineModel
+    bend: BendModel
+    stack: StackModel
+    limits: LimitsModel = LimitsModel()
+    objectives: K.choice_list(S.OBJECTIVES, description="minimized: peak_strain, signal_strain, thickness, loss; "
+                              "maximized: life") = ("peak_strain", "thickness")
+    search: SearchModel = SearchModel()
+
+
+assert tuple(StudyModel.model_fields) == S._TOP_KEYS and tuple(BendModel.model_fields) == S._BEND_KEYS
+assert tuple(LineModel.model_fields) == S._LINE_KEYS and tuple(StackModel.model_fields) == S._STACK_KEYS
+assert tuple(LimitsModel.model_fields) == S._LIMIT_KEYS and tuple(SearchModel.model_fields) == S._SEARCH_KEYS
+
+
+# ------------------------------------------------------------------------------------------------
+def build_study(data: Any, catalog: Any, file: str = "", folder: Path | None = None) -> S.Study:
+    """Validate ``data`` with :class:`StudyModel`, check the cross-field rules, build the Study."""
+    def where(path: str) -> str:
+        return f"{file}: {path}" if file else path
+
+    def err(path: str, msg: str) -> StudyError:
+        return StudyError(msg, where(path))
+
+    def rng(path: str, value: Any, lo: float, hi: float, lo_open: bool = False) -> StudyError:
+        return err(path, K.style.out_of_range(value, (lo, hi, lo_open, False)))
+
+    if not isinstance(data, dict):
+        raise err("study", K.style.not_mapping(data, S._TOP_KEYS))
+    try:
+        m = StudyModel.model_validate(data, context={"catalog": catalog})
+    except ValidationError as exc:
+        raise first_error(exc, StudyModel, K.style, where, StudyError) from None
+
+    ln, bd, st = m.line, m.bend, m.stack
+    kind = ln.type
+    tol, tol_label = ln.tolerance if ln.tolerance is not None else tolerance_of(10, catalog)
+    # The nominal design must sit well inside the tolerance, leaving the rest of the band for
+    # dielectric thickness, Dk and etch scatter: by default half of it (common practice, no source).
+    nominal = ln.nominal_error_pct if ln.nominal_error_pct is not None else 50.0 * tol
+    if not 0.0 < nominal <= 100.0 * tol:
+        raise rng("line.nominal_error_pct", ln.nominal_error_pct, 0.0, 100.0 * tol, lo_open=True)
+    if kind in S.GAP_KINDS:
+        if ln.gap_um is None:
+            raise err("line.gap_um", f"is required for a {kind} line (a number or a list of gaps in um)")
+        gaps = ln.gap_um
+    else:
+        if ln.gap_um is not None:
+            raise err("line.gap_um", f"is only used by [{', '.join(S.GAP_KINDS)}], not by {kind!r}")
+        gaps = ()
+    line = S.LineSpec(kind, ln.target_ohm, tol, tol_label, nominal / 100.0, ln.width_range_um[0],
+                      ln.width_range_um[1], gaps, ln.frequency_ghz)
+
+    if bd.cycles is None and bd.use == "dynamic":
+        raise err("bend.cycles", "is required for dynamic use (the number of flex cycles the product needs)")
+    ncu = st.copper_layers
+    leaves = bd.leaves
+    if leaves is not None:
+        if bd.region != "unbonded":
+            raise err("bend.leaves", f"only applies to an unbonded bend; set bend.region: unbonded "
+                                     f"(it is {bd.region!r})")
+        if leaves != "auto":
+            _check_leaves(leaves, ncu, err)
+    bend = S.BendSpec(bd.inner_radius_mm, bd.inside, bd.use, bd.cycles, bd.motion, bd.region, bd.plane_strain,
+                      leaves, bd.allow_uncovered)
+
+    need = S.MIN_COPPER[kind]
+    if ncu < need:
+        why = "a stripline sits between two ground planes" if kind in S.INNER_KINDS else \
+            "an outer line needs the adjacent copper layer as its ground plane"
+        raise err("stack.copper_layers", f"{ncu} is too few for a {kind} line ({why}); allowed range [{need}, 8]")
+    if st.signal_layer is None:
+        if st.order == "fixed":
+            raise err("stack.signal_layer", "'auto' needs stack.order 'free'; give a copper layer number for a "
+                                            "fixed order")
+    else:
+        if st.signal_layer > ncu:
+            raise rng("stack.signal_layer", st.signal_layer, 1, ncu)
+        inner = kind in S.INNER_KINDS
+        allowed = list(range(2, ncu)) if inner else [1, ncu]
+        if st.signal_layer not in allowed:
+            raise err("stack.signal_layer", f"{st.signal_layer} cannot carry a {kind} line; it must be "
+                      f"{'an inner' if inner else 'an outer'} copper layer, one of [{', '.join(map(str, allowed))}]")
+    for i, name in enumerate(st.dielectric):
+        if catalog.dielectrics[name].glass_reinforced:
+            raise err(f"stack.dielectric[{i}]", f"{name!r} is glass-reinforced and does not belong in a bend region")
+    dth = _per_material("stack.dielectric_thickness_um", st.dielectric_thickness_um, st.dielectric, where)
+    ath = _per_material("stack.adhesive_thickness_um", st.adhesive_thickness_um,
+                        [a for a in st.adhesive if a != S.NONE], where)
+    stack = S.StackSpec(ncu, st.symmetric, st.signal_layer, st.order, st.copper_weights, st.copper_types,
+                        st.dielectric, dth, st.adhesive, ath, st.coverlay, st.ground_coverage, st.signal_coverage)
+
+    lim = m.limits
+    lvals = {k: getattr(lim, k) for k in S._LIMIT_KEYS}
+    if lvals["min_cycles"] is None and bd.use == "dynamic":
+        lvals["min_cycles"] = bd.cycles
+    limits = S.Limits(**lvals)
+    se = m.search
+    search = S.SearchSpec(se.method, se.budget, se.seed, se.population, se.impedance)
+    catalog_path = None
+    if m.catalog is not None:
+        p = Path(m.catalog).expanduser()
+        catalog_path = p if p.is_absolute() else (folder or Path(".")) / p
+    return S.Study(m.name, m.description, line, bend, stack, limits, m.objectives, search, raw=dict(data),
+                   source=file, catalog_path=catalog_path)
+
+
+def _per_material(path: str, value: Any, materials: Any, where: Any) -> dict[str, tuple[float, ...]]:
+    if value is None:
+        return {}
+    if isinstance(value, dict):
+        for k in value:
+            if k not in materials:
+                raise StudyError(not_one_of(None, k, list(materials)).message, where(f"{path}.{k}"))
+        return {str(k): v for k, v in value.items()}
+    return {m: value for m in materials}
+
+
+def _check_leaves(leaves: tuple[tuple[int, ...], ...], ncu: int, err: Any) -> None:
+    """Every copper layer exactly once, each leaf contiguous, leaves in order top to bottom."""
+    flat = [n for g in leaves for n in g]
+    want = list(range(1, ncu + 1))
+    if flat != want:
+        for i, g in enumerate(leaves):
+            for j, n in enumerate(g):
+                if n > ncu:
+                    raise err(f"bend.leaves[{i}][{j}]", f"{n} is out of range; allowed range [1, {ncu}] "
+                                                        "(stack.copper_layers)")
+        raise err("bend.leaves", f"{show([list(g) for g in leaves])} must name every copper layer 1..{ncu} exactly "
+                                 "once, each leaf a run of adjacent layers, leaves in order top to bottom, "
+                                 f"e.g. {[want[: ncu // 2], want[ncu // 2:]] if ncu > 1 else [want]}")
