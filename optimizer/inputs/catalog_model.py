@@ -84,7 +84,7 @@ class CatalogStyle(Style):
     def not_list(self, value: Any, what: str) -> str:
         return f"must be a non-empty list of {what}, got {fmt(value)}"
 
-    def unknown_key(self, path: str, key: Any, allowed: Any) -> tuple[str, str]:
+    def unknown_key(self, path: str, key: Any, allowed: Any, model: Any = None) -> tuple[str, str]:
         return path, not_one_of(None, key, allowed).message
 
     def missing(self, path: str) -> tuple[str, str]:

@@ -69,7 +69,7 @@ class Style:
     def twice(self, value: Any) -> str:
         return f"{show(value)} lists a value twice"
 
-    def unknown_key(self, path: str, key: Any, allowed: Sequence[str]) -> tuple[str, str]:
+    def unknown_key(self, path: str, key: Any, allowed: Sequence[str], model: Any = None) -> tuple[str, str]:
         msg = f"unknown key {key!r}; allowed keys are [{', '.join(repr(x) for x in allowed)}]"
         hint = closest(key, allowed)
         return join(path, str(key)), msg + (f"; did you mean {hint!r}?" if hint else "")
@@ -224,8 +224,8 @@ class Kit:
 
     def choice_list(self, allowed: Sequence[str] | Callable[[Any], Sequence[str]], *,
                     description: str | None = None, schema_allowed: Callable[[], Sequence[str]] | None = None,
-                    normalize: Callable[[Any, Any], Any] | None = None) -> Any:
-        """A non-empty list of distinct choices; a lone value is a list of one."""
+                    normalize: Callable[[Any, Any], Any] | None = None, allow_empty: bool = False) -> Any:
+        """A non-empty (or ``allow_empty``) list of distinct choices; a lone value is a list of one."""
         st = self.style
 
         def pick(value: Any, info: Any = None) -> tuple[str, ...]:
@@ -233,7 +233,7 @@ class Kit:
             names = list(allowed(ctx) if callable(allowed) else allowed)
             if isinstance(value, str):
                 value = [value]
-            if not isinstance(value, list) or not value:
+            if not isinstance(value, list) or (not value and not allow_empty):
                 raise fail(st.not_list(value, f"[{', '.join(repr(a) for a in names)}]"))
             out = []
             for i, v in enumerate(value):
@@ -248,7 +248,8 @@ class Kit:
 
         def schema() -> dict:
             names = schema_allowed() if schema_allowed else allowed
-            s: dict[str, Any] = {"type": "array", "items": {"enum": list(names)}, "minItems": 1, "uniqueItems": True}
+            s: dict[str, Any] = {"type": "array", "items": {"enum": list(names)}, "minItems": 0 if allow_empty else 1,
+                                 "uniqueItems": True}
             if description:
                 s["description"] = description
             return s
@@ -341,7 +342,7 @@ def first_error(exc: ValidationError, root: type[BaseModel], style: Style,
     if kind == "extra_forbidden":
         parent = model_at(root, loc[:-1])
         allowed = list(parent.model_fields) if parent else []
-        path, msg = style.unknown_key(loc_path(loc[:-1]), loc[-1], allowed)
+        path, msg = style.unknown_key(loc_path(loc[:-1]), loc[-1], allowed, parent)
         return cls(msg, where(path))
     if kind == "missing":
         path, msg = style.missing(loc_path(loc))

@@ -1,7 +1,9 @@
 """Read a stackup file (YAML) into a :class:`~strainline.models.stackup.Stackup`.
 
-The file format is documented in README.md (bend mechanics). Every error is one :class:`StackupError` line naming
-the file, the field path, the bad value and the allowed values or range.
+The file format is documented in README.md (bend mechanics); its structure is the pydantic models
+of :mod:`~strainline.optimizer.inputs.stackup_model` (imported when a file is read). Every error is
+one :class:`StackupError` line naming the file, the field path, the bad value and the allowed
+values or range.
 """
 from __future__ import annotations
 
@@ -11,27 +13,15 @@ from dataclasses import replace
 from pathlib import Path
 from typing import Any
 
-from strainline.models.stackup import BEND_AREA_FEATURES, LAYER_KINDS, Layer, Stackup
+from strainline.models.stackup import LAYER_KINDS, Layer, Stackup
 from strainline.models.units import GPA, MPA, UM
 from strainline.optimizer.errors import StackupError, not_one_of
-from strainline.optimizer.inputs.yamlio import read_yaml
 
-TOP_KEYS: tuple[str, ...] = ("name", "description", "layers", "bend_area_features")
-DIELECTRIC_KEYS: tuple[str, ...] = ("name", "kind", "material", "thickness_um", "modulus_gpa", "poisson", "dk", "df",
-                                    "glass_reinforced")
-COVERLAY_KEYS: tuple[str, ...] = ("name", "kind", "material", "film_um", "adhesive_um")
-COPPER_KEYS: tuple[str, ...] = ("name", "kind", "copper", "weight", "thickness_um", "coverage", "fill", "modulus_gpa",
-                                "poisson", "tensile_strength_mpa", "yield_strength_mpa", "fatigue_ductility")
-AIR_GAP_KEYS: tuple[str, ...] = ("name", "kind", "thickness_um")
 AIR_FILL = "air"
 
 
-def _fmt(v: Any) -> str:
-    return repr(v) if isinstance(v, str) else str(v)
-
-
 class _Reader:
-    """Helpers that turn bad values into one StackupError line with the field path."""
+    """Errors of one file: ``<file>: <field path>: <message>``."""
 
     def __init__(self, path: str) -> None:
         self.path = path
@@ -39,49 +29,16 @@ class _Reader:
     def err(self, field: str, message: str) -> StackupError:
         return StackupError(message, f"{self.path}: {field}")
 
-    def choice(self, field: str, value: Any, allowed) -> str:
+    def choice(self, field: str, value: Any, allowed: Any) -> str:
         allowed = list(allowed)
         if not isinstance(value, str) or value not in allowed:
             raise not_one_of(f"{self.path}: {field}", value, allowed, StackupError)
         return value
 
-    def keys(self, entry: dict, field: str, allowed: tuple[str, ...], what: str) -> None:
-        for k in entry:
-            if k not in allowed:
-                hint = _close(str(k), allowed)
-                raise self.err(f"{field}.{k}", f"{k!r} is not a field of {what}; allowed: [{', '.join(allowed)}]"
-                               + (f"; did you mean {hint!r}?" if hint else ""))
+    def layer(self, model: Any, entry: dict, field: str) -> Any:
+        from strainline.optimizer.inputs.stackup_model import validate
 
-    def number(self, entry: dict, key: str, field: str, lo: float | None = None, hi: float | None = None,
-               lo_open: bool = False, hi_open: bool = False) -> float:
-        v = entry[key]
-        where = f"{field}.{key}"
-        if isinstance(v, bool) or not isinstance(v, (int, float)):
-            raise self.err(where, f"{_fmt(v)} is not a number; {self._range(lo, hi, lo_open, hi_open)}")
-        v = float(v)
-        ok = math.isfinite(v)
-        if ok and lo is not None:
-            ok = v > lo if lo_open else v >= lo
-        if ok and hi is not None:
-            ok = v < hi if hi_open else v <= hi
-        if not ok:
-            raise self.err(where, f"{_fmt(entry[key])} is out of range; {self._range(lo, hi, lo_open, hi_open)}")
-        return v
-
-    @staticmethod
-    def _range(lo, hi, lo_open, hi_open) -> str:
-        if lo is not None and hi is not None:
-            return f"must be in {'(' if lo_open else '['}{lo:g}, {hi:g}{')' if hi_open else ']'}"
-        if lo is not None:
-            return f"must be {'>' if lo_open else '>='} {lo:g}"
-        if hi is not None:
-            return f"must be {'<' if hi_open else '<='} {hi:g}"
-        return "must be a finite number"
-
-
-def _close(value: str, allowed) -> str | None:
-    from strainline.optimizer.errors import closest
-    return closest(value, allowed)
+        return validate(model, entry, lambda p: f"{self.path}: {field}.{p}" if p else f"{self.path}: {field}")
 
 
 def _kind_of(entry: Any) -> str:
@@ -113,60 +70,49 @@ def load_stackup(path: str | os.PathLike[str], catalog) -> Stackup:
     StackupError
         One line naming the file, the field path, the bad value and what is allowed.
     """
+    from strainline.optimizer.inputs import stackup_model as M
+    from strainline.optimizer.inputs.yamlio import read_yaml
+
     rd = _Reader(str(path))
     doc = read_yaml(path, StackupError)
     if not isinstance(doc, dict):
         raise rd.err("(top level)", f"expected a mapping with 'layers:', got {type(doc).__name__}")
-    for k in doc:
-        if k not in TOP_KEYS:
-            hint = _close(str(k), TOP_KEYS)
-            raise rd.err(str(k), f"{k!r} is not a top-level field; allowed: [{', '.join(TOP_KEYS)}]"
-                         + (f"; did you mean {hint!r}?" if hint else ""))
-    if "layers" not in doc:
+    top = M.validate(M.StackupFile, doc, lambda p: f"{rd.path}: {p or '(top level)'}")
+    if top.layers is None:
         raise rd.err("layers", "missing; list the layers top to bottom")
-    raw = doc["layers"]
+    raw = top.layers
     if not isinstance(raw, list) or not raw:
         raise rd.err("layers", "must be a non-empty list of layers, top to bottom")
-    name = doc.get("name", Path(path).stem)
-    if not isinstance(name, str):
-        raise rd.err("name", f"{_fmt(name)} is not text")
-
-    feats = doc.get("bend_area_features", [])
-    if feats is None:
-        feats = []
-    if not isinstance(feats, list):
-        raise rd.err("bend_area_features", f"must be a list drawn from [{', '.join(BEND_AREA_FEATURES)}]")
-    for j, f in enumerate(feats):
-        rd.choice(f"bend_area_features[{j}]", f, BEND_AREA_FEATURES)
+    name = top.name if top.name is not None else Path(path).stem
+    feats = top.bend_area_features or ()
 
     kinds = [_kind_of(e) for e in raw]
     layers: list[Layer] = []
     for i, entry in enumerate(raw):
         field = f"layers[{i}]"
         if not isinstance(entry, dict):
-            raise rd.err(field, f"{_fmt(entry)} is not a layer; give a mapping such as "
+            raise rd.err(field, f"{entry!r} is not a layer; give a mapping such as "
                                 "{material: polyimide-film, thickness_um: 25}")
-        if "kind" in entry:
+        if entry.get("kind") is not None:
             rd.choice(f"{field}.kind", entry["kind"], LAYER_KINDS)
         kind = kinds[i]
         before = len(layers)
         if kind == "air-gap":
-            layers.append(_air_gap(rd, entry, field, before + 1))
+            layers.append(_air_gap(rd.layer(M.AirGapLayer, entry, field), before + 1))
         elif kind == "copper":
-            layers.append(_copper(rd, entry, field, catalog, before + 1))
+            layers.append(_copper(rd, rd.layer(M.CopperLayer, entry, field), field, catalog, before + 1))
         elif entry.get("material") in catalog.coverlays:
             above = kinds[i - 1] if i > 0 else None
             below = kinds[i + 1] if i + 1 < len(kinds) else None
-            layers.extend(_coverlay(rd, entry, field, catalog, above, below, before + 1))
+            e = rd.layer(M.CoverlayLayer, entry, field)
+            layers.extend(_coverlay(rd, e, field, catalog, above, below, before + 1))
         else:
-            layers.append(_dielectric(rd, entry, field, catalog, before + 1))
+            layers.append(_dielectric(rd, rd.layer(M.DielectricLayer, entry, field), field, catalog, before + 1))
 
     seen: dict[str, int] = {}
     for i, entry in enumerate(raw):
-        if isinstance(entry, dict) and "name" in entry:
-            nm = entry["name"]
-            if not isinstance(nm, str) or not nm.strip():
-                raise rd.err(f"layers[{i}].name", f"{_fmt(nm)} is not a name; give non-empty text")
+        nm = entry.get("name")
+        if nm is not None:
             if nm in seen:
                 raise rd.err(f"layers[{i}].name", f"{nm!r} is already used by layers[{seen[nm]}]; names must be unique")
             seen[nm] = i
@@ -177,66 +123,55 @@ def load_stackup(path: str | os.PathLike[str], catalog) -> Stackup:
         raise rd.err("layers", str(exc)) from None
 
 
-def _default_name(entry: dict, n: int, what: str) -> str:
-    return entry["name"] if isinstance(entry.get("name"), str) and entry["name"].strip() else f"L{n} {what}"
+def _default_name(e: Any, n: int, what: str) -> str:
+    return e.name if e.name else f"L{n} {what}"
 
 
-def _air_gap(rd: _Reader, entry: dict, field: str, n: int) -> Layer:
-    rd.keys(entry, field, AIR_GAP_KEYS, "an air-gap layer")
-    t = rd.number(entry, "thickness_um", field, lo=0.0) * UM if "thickness_um" in entry else 0.0
-    return Layer(_default_name(entry, n, "air gap"), "air-gap", t, 0.0, 0.0, None, None, "inline")
+def _air_gap(e: Any, n: int) -> Layer:
+    t = e.thickness_um * UM if e.thickness_um is not None else 0.0
+    return Layer(_default_name(e, n, "air gap"), "air-gap", t, 0.0, 0.0, None, None, "inline")
 
 
-def _thickness_from_material(rd: _Reader, entry: dict, field: str, mat) -> float:
-    if "thickness_um" in entry:
-        return rd.number(entry, "thickness_um", field, lo=0.0, lo_open=True) * UM
+def _thickness_from_material(rd: _Reader, e: Any, field: str, mat) -> float:
+    if e.thickness_um is not None:
+        return e.thickness_um * UM
     if len(mat.thicknesses_m) == 1:
         return mat.thicknesses_m[0]
     sold = ", ".join(f"{t / UM:g}" for t in mat.thicknesses_m)
     raise rd.err(f"{field}.thickness_um", f"missing; {mat.name!r} is sold in [{sold}] um, give one of them")
 
 
-def _dielectric(rd: _Reader, entry: dict, field: str, catalog, n: int) -> Layer:
-    rd.keys(entry, field, DIELECTRIC_KEYS, "a dielectric layer")
-    if "material" in entry:
+def _dielectric(rd: _Reader, e: Any, field: str, catalog, n: int) -> Layer:
+    if e.material is not None:
         allowed = list(catalog.dielectrics) + list(catalog.coverlays)
-        key = rd.choice(f"{field}.material", entry["material"], allowed)
+        key = rd.choice(f"{field}.material", e.material, allowed)
         mat = catalog.dielectrics[key]
-        t = _thickness_from_material(rd, entry, field, mat)
-        e = rd.number(entry, "modulus_gpa", field, lo=0.0, lo_open=True) * GPA if "modulus_gpa" in entry else mat.modulus_pa
-        nu = rd.number(entry, "poisson", field, lo=0.0, hi=0.5, hi_open=True) if "poisson" in entry else mat.poisson
-        dk = rd.number(entry, "dk", field, lo=1.0) if "dk" in entry else mat.dk
-        df = rd.number(entry, "df", field, lo=0.0, hi=1.0, hi_open=True) if "df" in entry else mat.df
-        glass = mat.glass_reinforced
-        family = mat.family
-        material = key
+        t = _thickness_from_material(rd, e, field, mat)
+        mod = e.modulus_gpa * GPA if e.modulus_gpa is not None else mat.modulus_pa
+        nu = e.poisson if e.poisson is not None else mat.poisson
+        dk = e.dk if e.dk is not None else mat.dk
+        df = e.df if e.df is not None else mat.df
+        glass, family, material = mat.glass_reinforced, mat.family, key
     else:
         for k in ("thickness_um", "modulus_gpa", "poisson"):
-            if k not in entry:
+            if getattr(e, k) is None:
                 raise rd.err(f"{field}.{k}", "missing; an inline dielectric gives thickness_um, modulus_gpa and "
                                              "poisson (or name a catalog material with material:)")
-        t = rd.number(entry, "thickness_um", field, lo=0.0, lo_open=True) * UM
-        e = rd.number(entry, "modulus_gpa", field, lo=0.0, lo_open=True) * GPA
-        nu = rd.number(entry, "poisson", field, lo=0.0, hi=0.5, hi_open=True)
-        dk = rd.number(entry, "dk", field, lo=1.0) if "dk" in entry else None
-        df = rd.number(entry, "df", field, lo=0.0, hi=1.0, hi_open=True) if "df" in entry else None
+        t, mod, nu, dk, df = e.thickness_um * UM, e.modulus_gpa * GPA, e.poisson, e.dk, e.df
         glass, family, material = False, None, "inline"
-    if "glass_reinforced" in entry:
-        if not isinstance(entry["glass_reinforced"], bool):
-            raise rd.err(f"{field}.glass_reinforced", f"{_fmt(entry['glass_reinforced'])} is not one of [true, false]")
-        glass = entry["glass_reinforced"]
-    return Layer(_default_name(entry, n, material), "dielectric", t, e, nu, dk, df, material,
+    if e.glass_reinforced is not None:
+        glass = e.glass_reinforced
+    return Layer(_default_name(e, n, material), "dielectric", t, mod, nu, dk, df, material,
                  glass_reinforced=glass, family=family)
 
 
-def _coverlay(rd: _Reader, entry: dict, field: str, catalog, above: str | None, below: str | None,
+def _coverlay(rd: _Reader, e: Any, field: str, catalog, above: str | None, below: str | None,
               n: int) -> list[Layer]:
-    rd.keys(entry, field, COVERLAY_KEYS, "a coverlay layer")
-    cov = catalog.coverlays[entry["material"]]
+    cov = catalog.coverlays[e.material]
     builds = cov.builds_m
     listing = ", ".join(f"{f / UM:g}/{a / UM:g}" for f, a in builds)
-    film_t = rd.number(entry, "film_um", field, lo=0.0, lo_open=True) * UM if "film_um" in entry else None
-    adh_t = rd.number(entry, "adhesive_um", field, lo=0.0, lo_open=True) * UM if "adhesive_um" in entry else None
+    film_t = e.film_um * UM if e.film_um is not None else None
+    adh_t = e.adhesive_um * UM if e.adhesive_um is not None else None
     if film_t is None or adh_t is None:
         match = [b for b in builds
                  if (film_t is None or math.isclose(b[0], film_t, rel_tol=1e-6))
@@ -255,8 +190,7 @@ def _coverlay(rd: _Reader, entry: dict, field: str, catalog, above: str | None, 
                                           "(its adhesive faces the copper); list film and adhesive separately otherwise")
     film = catalog.dielectrics[cov.film]
     adh = catalog.dielectrics[cov.adhesive]
-    base = entry["name"] if isinstance(entry.get("name"), str) and entry["name"].strip() else None
-    first, second = (n, n + 1)
+    base = e.name
 
     def make(mat, t: float, k: int, part: str) -> Layer:
         name = f"{base} {part}" if base else f"L{k} {mat.name}"
@@ -264,50 +198,47 @@ def _coverlay(rd: _Reader, entry: dict, field: str, catalog, above: str | None, 
                      glass_reinforced=mat.glass_reinforced, family=mat.family)
 
     if adhesive_below:
-        return [make(film, film_t, first, "film"), make(adh, adh_t, second, "adhesive")]
-    return [make(adh, adh_t, first, "adhesive"), make(film, film_t, second, "film")]
+        return [make(film, film_t, n, "film"), make(adh, adh_t, n + 1, "adhesive")]
+    return [make(adh, adh_t, n, "adhesive"), make(film, film_t, n + 1, "film")]
 
 
-def _copper(rd: _Reader, entry: dict, field: str, catalog, n: int) -> Layer:
-    rd.keys(entry, field, COPPER_KEYS, "a copper layer")
-    if "copper" not in entry:
+def _copper(rd: _Reader, e: Any, field: str, catalog, n: int) -> Layer:
+    if e.copper is None:
         raise rd.err(f"{field}.copper", f"missing; name the foil, one of [{', '.join(catalog.foils)}]")
-    foil = catalog.foils[rd.choice(f"{field}.copper", entry["copper"], catalog.foils)]
-    if "weight" in entry and "thickness_um" in entry:
+    foil = catalog.foils[rd.choice(f"{field}.copper", e.copper, catalog.foils)]
+    if e.weight is not None and e.thickness_um is not None:
         raise rd.err(f"{field}.weight", "give weight or thickness_um, not both")
-    if "weight" in entry:
-        t = catalog.weights[rd.choice(f"{field}.weight", entry["weight"], catalog.weights)].thickness_m
-    elif "thickness_um" in entry:
-        t = rd.number(entry, "thickness_um", field, lo=0.0, lo_open=True) * UM
+    if e.weight is not None:
+        from strainline.optimizer.inputs.catalog_records import weight_key
+
+        t = catalog.weights[rd.choice(f"{field}.weight", weight_key(e.weight, catalog.weights),
+                                      catalog.weights)].thickness_m
+    elif e.thickness_um is not None:
+        t = e.thickness_um * UM
     else:
         raise rd.err(f"{field}.weight", f"missing; give weight (one of [{', '.join(catalog.weights)}]) or thickness_um")
     over: dict[str, float] = {}
-    if "modulus_gpa" in entry:
-        over["modulus_pa"] = rd.number(entry, "modulus_gpa", field, lo=0.0, lo_open=True) * GPA
-    if "poisson" in entry:
-        over["poisson"] = rd.number(entry, "poisson", field, lo=0.0, hi=0.5, hi_open=True)
-    if "tensile_strength_mpa" in entry:
-        over["tensile_strength_pa"] = rd.number(entry, "tensile_strength_mpa", field, lo=0.0, lo_open=True) * MPA
-    if "yield_strength_mpa" in entry:
-        over["yield_strength_pa"] = rd.number(entry, "yield_strength_mpa", field, lo=0.0, lo_open=True) * MPA
-    if "fatigue_ductility" in entry:
-        over["fatigue_ductility"] = rd.number(entry, "fatigue_ductility", field, lo=0.0, lo_open=True)
+    for key, attr, unit in (("modulus_gpa", "modulus_pa", GPA), ("poisson", "poisson", 1.0),
+                            ("tensile_strength_mpa", "tensile_strength_pa", MPA),
+                            ("yield_strength_mpa", "yield_strength_pa", MPA),
+                            ("fatigue_ductility", "fatigue_ductility", 1.0)):
+        if getattr(e, key) is not None:
+            over[attr] = getattr(e, key) * unit
     if over:
         if over.get("yield_strength_pa", foil.yield_strength_pa) > over.get("tensile_strength_pa",
                                                                            foil.tensile_strength_pa):
-            key = "yield_strength_mpa" if "yield_strength_mpa" in entry else "tensile_strength_mpa"
-            raise rd.err(f"{field}.{key}", f"{_fmt(entry[key])} makes the yield strength exceed the tensile "
+            key = "yield_strength_mpa" if e.yield_strength_mpa is not None else "tensile_strength_mpa"
+            raise rd.err(f"{field}.{key}", f"{getattr(e, key):g} makes the yield strength exceed the tensile "
                                            "strength; yield must be <= tensile")
         foil = replace(foil, **over)
-    coverage = rd.number(entry, "coverage", field, lo=0.0, hi=1.0, lo_open=True) if "coverage" in entry else 1.0
+    coverage = e.coverage if e.coverage is not None else 1.0
     fill_kw: dict[str, Any] = {}
-    if "fill" in entry:
-        allowed = [AIR_FILL, *catalog.dielectrics]
-        key = rd.choice(f"{field}.fill", entry["fill"], allowed)
+    if e.fill is not None:
+        key = rd.choice(f"{field}.fill", e.fill, [AIR_FILL, *catalog.dielectrics])
         if key == AIR_FILL:
             fill_kw = {"fill_modulus_pa": 0.0, "fill_poisson": 0.0, "fill_material": AIR_FILL}
         else:
             m = catalog.dielectrics[key]
             fill_kw = {"fill_modulus_pa": m.modulus_pa, "fill_poisson": m.poisson, "fill_material": key}
-    return Layer(_default_name(entry, n, "copper"), "copper", t, foil.modulus_pa, foil.poisson, None, None,
+    return Layer(_default_name(e, n, "copper"), "copper", t, foil.modulus_pa, foil.poisson, None, None,
                  foil.name, coverage=coverage, copper=foil, **fill_kw)
