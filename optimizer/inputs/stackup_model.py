@@ -12,7 +12,6 @@ from __future__ import annotations
 from typing import Any, ClassVar
 
 from pydantic import ValidationError
-
 from strainline.models.stackup import BEND_AREA_FEATURES
 from strainline.optimizer.errors import StackupError, closest
 from strainline.optimizer.inputs.modelkit import Base, Bounds, Kit, Style, first_error
@@ -118,7 +117,7 @@ class StackupFile(Base):
     what: ClassVar[str] = "a top-level field"
     name: Text = None
     description: Text = None
-    layers: list[Any] = None
+    layers: Any = None   # a non-empty list, checked by the reader (each entry by its kind's model)
     bend_area_features: K.choice_list(BEND_AREA_FEATURES, allow_empty=True) = None
 
 

@@ -1,0 +1,168 @@
+"""Hardened inputs: every bad study, stackup or catalog is ONE line, exit 2, naming the field; fast.
+
+A corpus of hostile and malformed inputs (size, depth, aliases, duplicate keys, absurd and
+non-finite numbers, falsy values, line types without the copper they need). The expected results
+are the rules of the study format itself (README "Study files"); the copper each line type needs
+follows from its geometry: a microstrip or conductor-backed coplanar line has its ground plane in
+the adjacent copper layer (Wadell, "Transmission Line Design Handbook", 1991, sections 3.4 and
+3.5.2), a stripline lies between two planes (ibid., 3.6).
+"""
+from __future__ import annotations
+
+import copy
+import time
+
+import pytest
+import yaml
+
+BASE = {
+    "name": "unit",
+    "line": {"type": "microstrip", "target_ohm": 50, "width_range_um": [75, 400], "frequency_ghz": 2},
+    "bend": {"inner_radius_mm": 5, "use": "dynamic", "cycles": 10000},
+    "stack": {"copper_layers": 2, "copper_weights": ["1/3oz"], "dielectric": ["polyimide-film"],
+              "coverlay": ["polyimide-coverlay-acrylic"]},
+}
+
+
+def _with(path: str, value):
+    d = copy.deepcopy(BASE)
+    node = d
+    keys = path.split(".")
+    for k in keys[:-1]:
+        node = node.setdefault(k, {})
+    if value is _DROP:
+        del node[keys[-1]]
+    else:
+        node[keys[-1]] = value
+    return yaml.safe_dump(d, sort_keys=False)
+
+
+_DROP = object()
+
+
+def _solve(run_cli, tmp_path, text: str, name: str = "study.yaml") -> str:
+    p = tmp_path / name
+    p.write_text(text, encoding="utf-8")
+    import strainline.optimizer.inputs.study_model  # noqa: F401  (time the refusal, not the first import)
+    from strainline.optimizer.inputs.catalog import load_catalog
+
+    load_catalog()
+    t0 = time.process_time()
+    code, out, err = run_cli("solve", p, "--out", tmp_path / "out", "--quiet")
+    took = time.process_time() - t0
+    assert code == 2, (code, err)
+    lines = err.strip().splitlines()
+    assert len(lines) == 1 and "Traceback" not in err, err
+    assert str(p.name) in lines[0]
+    assert took < 1.0, f"{took:.2f} s CPU to refuse a bad input"
+    return lines[0]
+
+
+# (case id, study text, text the one line must hold)
+STUDIES = [
+    ("falsy-description", _with("description", 0), "description: 0 must be text"),
+    ("falsy-limits-list", _with("limits", []), "limits: [] must be a mapping"),
+    ("falsy-search-zero", _with("search", 0), "search: 0 must be a mapping"),
+    ("falsy-name-false", _with("name", False), "name: False must be text"),
+    ("huge-integer", _with("stack.copper_layers", 10 ** 400), "stack.copper_layers:"),
+    ("huge-integer-range", _with("bend.cycles", 10 ** 400), "allowed range [1, 1e+12]"),
+    ("absurd-thickness-limit", _with("limits.total_thickness_um", 1e300),
+     "limits.total_thickness_um: 1e+300 is out of range; allowed range (0, 100000]"),
+    ("infinite-radius", _with("bend.inner_radius_mm", float("inf")), "bend.inner_radius_mm: inf is not a number"),
+    ("nan-target", _with("line.target_ohm", float("nan")), "line.target_ohm: nan is not a number"),
+    ("tolerance-two-dots", _with("line.tolerance", "1.2.3%"), "line.tolerance: '1.2.3%' is not one of ["),
+    ("tolerance-zero", _with("line.tolerance", "0%"), "line.tolerance: 0.0 is out of range"),
+    ("thickness-option-absurd", _with("stack.dielectric_thickness_um", [25, 1e300]),
+     "stack.dielectric_thickness_um[1]: 1e+300 is out of range"),
+    ("thickness-map-absurd", _with("stack.dielectric_thickness_um", {"polyimide-film": [1e300]}),
+     "stack.dielectric_thickness_um.polyimide-film[0]: 1e+300 is out of range"),
+    ("thickness-map-unknown", _with("stack.dielectric_thickness_um", {"polimide-film": [25]}),
+     "did you mean 'polyimide-film'?"),
+    # the copper layers each line type needs
+    ("coplanar-one-copper", _with("stack.copper_layers", 1).replace("microstrip", "coplanar").replace(
+        "frequency_ghz: 2", "frequency_ghz: 2\n  gap_um: 100"),
+     "stack.copper_layers: 1 is too few for a coplanar line"),
+    ("microstrip-one-copper", _with("stack.copper_layers", 1), "1 is too few for a microstrip line"),
+    ("stripline-two-copper", _with("line.type", "stripline"), "2 is too few for a stripline line"),
+    ("stripline-on-outer", yaml.safe_dump({**BASE, "line": {**BASE["line"], "type": "stripline"},
+                                           "stack": {**BASE["stack"], "copper_layers": 3, "signal_layer": 1}}),
+     "stack.signal_layer: 1 cannot carry a stripline line; it must be an inner copper layer, one of [2]"),
+    ("microstrip-on-inner", yaml.safe_dump({**BASE, "stack": {**BASE["stack"], "copper_layers": 3,
+                                                              "signal_layer": 2}}),
+     "stack.signal_layer: 2 cannot carry a microstrip line; it must be an outer copper layer, one of [1, 3]"),
+    ("signal-past-last", _with("stack.signal_layer", 5), "stack.signal_layer: 5 is out of range; allowed range [1, 2]"),
+    # duplicate keys: YAML would keep the last silently
+    ("duplicate-target", yaml.safe_dump(BASE, sort_keys=False).replace(
+        "target_ohm: 50", "target_ohm: 50\n  target_ohm: 90"), "key 'target_ohm' appears twice (line 5)"),
+    # YAML machinery refused in a study
+    ("alias", yaml.safe_dump(BASE, sort_keys=False).replace("inner_radius_mm: 5", "inner_radius_mm: &r 5")
+     .replace("use: dynamic", "use: dynamic\n  cycles_again: *r"), "YAML anchor '&r' at line"),
+    ("alias-bomb", "a: &a [x,x,x,x,x,x,x,x,x]\nb: &b [*a,*a,*a,*a,*a,*a,*a,*a,*a]\nc: &c [*b,*b,*b,*b,*b,*b,*b,*b,*b]\n"
+                   "d: &d [*c,*c,*c,*c,*c,*c,*c,*c,*c]\ne: &e [*d,*d,*d,*d,*d,*d,*d,*d,*d]\n"
+                   "f: &f [*e,*e,*e,*e,*e,*e,*e,*e,*e]\ng: &g [*f,*f,*f,*f,*f,*f,*f,*f,*f]\n"
+                   "h: &h [*g,*g,*g,*g,*g,*g,*g,*g,*g]\ni: &i [*h,*h,*h,*h,*h,*h,*h,*h,*h]\n", "YAML anchor '&a' at line 1"),
+    ("deep-flow", "name: " + "[" * 20000 + "]" * 20000 + "\n", "not valid YAML at line 1"),
+    ("deep-block", "".join("  " * i + f"k{i}:\n" for i in range(200)) + "  " * 200 + "x: 1\n", "nesting deeper than 64"),
+    ("top-is-list", "- 1\n- 2\n", "study: [1, 2] must be a mapping"),
+]
+
+
+@pytest.mark.parametrize("name, text, expect", STUDIES, ids=[s[0] for s in STUDIES])
+def test_bad_study_is_one_line_exit_2(run_cli, tmp_path, name, text, expect):
+    line = _solve(run_cli, tmp_path, text)
+    assert expect in line, line
+
+
+def test_fifty_megabyte_study_is_refused_before_reading(run_cli, tmp_path):
+    p = tmp_path / "big.yaml"
+    with p.open("wb") as fh:   # sparse: 50 MB of nothing, refused on its size alone
+        fh.truncate(50 * 1024 * 1024)
+    t0 = time.perf_counter()
+    code, _, err = run_cli("solve", p, "--out", tmp_path / "out", "--quiet")
+    assert time.perf_counter() - t0 < 1.0
+    assert code == 2 and err.count("\n") == 1
+    assert "the file is 52,428,800 bytes; the limit is 1,000,000 bytes (1 MB)" in err
+
+
+def test_stackup_alias_and_absurd_numbers(run_cli, tmp_path):
+    cases = [
+        ("layers:\n  - &l {material: polyimide-film, thickness_um: 25}\n  - *l\n", "YAML anchor '&l' at line 2"),
+        ("layers:\n  - material: polyimide-film\n    thickness_um: 1e300\n",
+         "layers[0].thickness_um: 1e+300 is out of range; must be in (0, 10000]"),
+        ("layers:\n  - thickness_um: 25\n    modulus_gpa: 1e300\n    poisson: 0.3\n",
+         "layers[0].modulus_gpa: 1e+300 is out of range; must be in (0, 1000]"),
+        ("layers:\n  - material: polyimide-film\n    thickness_um: 25\n    thickness_um: 50\n",
+         "key 'thickness_um' appears twice (line 4)"),
+        ("layers: {}\n", "layers: must be a non-empty list"),
+        ("description: 0\nlayers:\n  - {material: polyimide-film, thickness_um: 25}\n", "description: 0 is not a name"),
+    ]
+    for i, (text, expect) in enumerate(cases):
+        p = tmp_path / f"s{i}.yaml"
+        p.write_text(text, encoding="utf-8")
+        code, out, err = run_cli("bend", p, "--inner-radius-mm", "3")
+        assert code == 2 and out == "" and err.count("\n") == 1, (text, err)
+        assert expect in err, (expect, err)
+
+
+def test_catalog_alias_bomb_and_duplicate_walk_are_bounded(tmp_path):
+    # The catalog may use anchors (shared values), but their expansion is capped and the
+    # duplicate-key walk visits each node once: a billion-leaf bomb fails in well under a second.
+    import shutil
+    from pathlib import Path
+
+    from strainline.optimizer.errors import CatalogError
+    from strainline.optimizer.inputs.catalog import load_catalog
+
+    shipped = Path(__file__).resolve().parents[1] / "catalogs"
+    folder = tmp_path / "cat"
+    folder.mkdir()
+    for n in ("materials.yaml", "copper.yaml", "fabrication.yaml"):
+        shutil.copy(shipped / n, folder / n)
+    levels = ["a0: &a0 [x, x, x, x, x, x, x, x, x, x]"]
+    levels += [f"a{i}: &a{i} [" + ", ".join([f"*a{i - 1}"] * 10) + "]" for i in range(1, 10)]
+    with (folder / "copper.yaml").open("a", encoding="utf-8") as fh:
+        fh.write("about:\n" + "".join(f"  {line}\n" for line in levels))
+    t0 = time.perf_counter()
+    with pytest.raises(CatalogError, match="YAML aliases expand to more than 200,000 values"):
+        load_catalog(folder)
+    assert time.perf_counter() - t0 < 1.0
