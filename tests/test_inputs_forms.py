@@ -12,7 +12,6 @@ from pathlib import Path
 
 import pytest
 import yaml
-
 from strainline.optimizer.errors import StudyError
 from strainline.optimizer.inputs.catalog import load_catalog
 from strainline.optimizer.inputs.study import load_study, validate_study

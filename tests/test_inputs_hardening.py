@@ -48,7 +48,7 @@ def _solve(run_cli, tmp_path, text: str, name: str = "study.yaml") -> str:
 
     load_catalog()
     t0 = time.process_time()
-    code, out, err = run_cli("solve", p, "--out", tmp_path / "out", "--quiet")
+    code, _, err = run_cli("solve", p, "--out", tmp_path / "out", "--quiet")
     took = time.process_time() - t0
     assert code == 2, (code, err)
     lines = err.strip().splitlines()
@@ -97,10 +97,10 @@ STUDIES = [
     # YAML machinery refused in a study
     ("alias", yaml.safe_dump(BASE, sort_keys=False).replace("inner_radius_mm: 5", "inner_radius_mm: &r 5")
      .replace("use: dynamic", "use: dynamic\n  cycles_again: *r"), "YAML anchor '&r' at line"),
-    ("alias-bomb", "a: &a [x,x,x,x,x,x,x,x,x]\nb: &b [*a,*a,*a,*a,*a,*a,*a,*a,*a]\nc: &c [*b,*b,*b,*b,*b,*b,*b,*b,*b]\n"
+    ("alias-bomb", ("a: &a [x,x,x,x,x,x,x,x,x]\nb: &b [*a,*a,*a,*a,*a,*a,*a,*a,*a]\nc: &c [*b,*b,*b,*b,*b,*b,*b,*b,*b]\n"
                    "d: &d [*c,*c,*c,*c,*c,*c,*c,*c,*c]\ne: &e [*d,*d,*d,*d,*d,*d,*d,*d,*d]\n"
                    "f: &f [*e,*e,*e,*e,*e,*e,*e,*e,*e]\ng: &g [*f,*f,*f,*f,*f,*f,*f,*f,*f]\n"
-                   "h: &h [*g,*g,*g,*g,*g,*g,*g,*g,*g]\ni: &i [*h,*h,*h,*h,*h,*h,*h,*h,*h]\n", "YAML anchor '&a' at line 1"),
+                   "h: &h [*g,*g,*g,*g,*g,*g,*g,*g,*g]\ni: &i [*h,*h,*h,*h,*h,*h,*h,*h,*h]\n"), "YAML anchor '&a' at line 1"),
     ("deep-flow", "name: " + "[" * 20000 + "]" * 20000 + "\n", "not valid YAML at line 1"),
     ("deep-block", "".join("  " * i + f"k{i}:\n" for i in range(200)) + "  " * 200 + "x: 1\n", "nesting deeper than 64"),
     ("top-is-list", "- 1\n- 2\n", "study: [1, 2] must be a mapping"),
