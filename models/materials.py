@@ -52,6 +52,9 @@ class Dielectric:
         Relative thickness tolerance (0.1 = +/-10 %).
     source : str
         Where the numbers come from.
+    min_bend_radius_m : float or None
+        Smallest bend radius the material tolerates, m, where a source gives one (e.g. a
+        photoimageable cover); None otherwise.
     """
 
     name: str
@@ -67,8 +70,11 @@ class Dielectric:
     thicknesses_m: tuple[float, ...]
     thickness_tolerance: float
     source: str
+    min_bend_radius_m: float | None = None
 
     def __post_init__(self) -> None:
+        _require(self.min_bend_radius_m is None or self.min_bend_radius_m > 0,
+                 "minimum bend radius must be positive")
         _require(self.family in DIELECTRIC_FAMILIES, f"family must be one of {DIELECTRIC_FAMILIES}")
         _require(self.modulus_pa > 0, "modulus must be positive")
         _require(0.0 <= self.poisson < 0.5, "poisson must be in [0, 0.5)")

@@ -24,8 +24,10 @@ LAYER_KINDS: tuple[str, ...] = get_args(LayerKind)
 BendAreaFeature = Literal["plated-through-holes", "nickel-plating", "panel-plating", "button-plating"]
 BEND_AREA_FEATURES: tuple[str, ...] = get_args(BendAreaFeature)
 
-#: Dielectric families that flow into the gaps between copper features during lamination.
-FLOWING_FAMILIES: tuple[str, ...] = ("adhesive",)
+#: Dielectric families that flow into the gaps between copper features during lamination: bond and
+#: coverlay adhesives, and a photoimageable cover (applied liquid or as a dry film that fills the
+#: gaps). Films, cores, laminates and stiffeners do not flow.
+FLOWING_FAMILIES: tuple[str, ...] = ("adhesive", "cover")
 
 
 def _check(cond: bool, what: str) -> None:
@@ -142,19 +144,25 @@ class Layer:
 def resolve_fills(layers: tuple[Layer, ...]) -> tuple[Layer, ...]:
     """Give every partially covered copper layer its fill material.
 
-    Rule (documented in README.md (bend mechanics)): a layer's explicit fill wins. Otherwise the adjacent
-    adhesive (the layer above first, then the one below) flows into the gaps; failing that, the
-    adjacent dielectric (above first, then below); with no dielectric neighbour (air gap, other
-    copper, or the outer surface on both sides) the fill is air (modulus 0).
+    Rule (follows lamination; documented in README.md, bend mechanics): a layer's explicit fill wins.
+    Otherwise the gaps hold what flows into them during lamination: the adjacent bond or coverlay
+    adhesive, or a photoimageable cover (:data:`FLOWING_FAMILIES`; the layer above first, then the
+    one below). A film or core does not flow, nor does an air gap, so with no flowing neighbour the
+    fill is air (modulus 0). Zero-thickness layers are skipped when looking for the neighbour.
     """
     out = list(layers)
     for i, lay in enumerate(layers):
         if not lay.needs_fill or lay.fill_modulus_pa is not None:
             continue
-        nbrs = [layers[j] for j in (i - 1, i + 1) if 0 <= j < len(layers)]
-        diel = [n for n in nbrs if n.kind == "dielectric"]
-        flowing = [n for n in diel if n.family in FLOWING_FAMILIES]
-        pick = (flowing or diel or [None])[0]
+        nbrs = []
+        for step in (-1, 1):
+            j = i + step
+            while 0 <= j < len(layers) and layers[j].thickness_m == 0 and layers[j].kind != "air-gap":
+                j += step
+            if 0 <= j < len(layers):
+                nbrs.append(layers[j])
+        flowing = [n for n in nbrs if n.kind == "dielectric" and n.family in FLOWING_FAMILIES]
+        pick = (flowing or [None])[0]
         if pick is None:
             out[i] = replace(lay, fill_modulus_pa=0.0, fill_poisson=0.0, fill_material="air")
         else:

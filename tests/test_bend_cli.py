@@ -234,7 +234,7 @@ def test_missing_file_and_bad_choice(run_cli, tmp_path):
 
 
 def test_bend_report_rejects_bad_arguments():
-    from strainline.optimizer.outputs.bend_report import bend_report
+    from strainline.optimizer.search.bend_report import bend_report
     from strainline.optimizer.errors import InputError
     s = load_stackup(EXAMPLES[0], load_catalog())
     for kw in ({"inner_radius_mm": 0.0}, {"inner_radius_mm": 1.0, "inside": "side"},

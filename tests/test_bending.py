@@ -169,9 +169,20 @@ def test_voigt_coverage_by_hand_and_default_fill():
     s = Stackup((diel("film", 25, 2.8), cu("c", 18, coverage=0.4), diel("adh", 25, 1.0, 0.4, family="adhesive")))
     assert s.layers[1].fill_material == "inline" and s.layers[1].fill_modulus_pa == 1.0e9
     assert s.arrays().modulus_pa[0, 1] == pytest.approx(0.4 * 118e9 + 0.6 * 1e9, rel=1e-14)
-    # no adhesive neighbour: the adjacent dielectric above first
+    # fill follows lamination (bending note section 1.6: the fill is whatever flowed into the gaps,
+    # coverlay or bond adhesive or the photoimageable cover): a film or core does not flow -> air
     s2 = Stackup((diel("film", 25, 2.8), cu("c", 18, coverage=0.4), diel("core", 25, 5.0)))
-    assert s2.layers[1].fill_modulus_pa == 2.8e9
+    assert s2.layers[1].fill_modulus_pa == 0.0 and s2.layers[1].fill_material == "air"
+    assert s2.arrays().modulus_pa[0, 1] == pytest.approx(0.4 * 118e9, rel=1e-14)
+    # an adhesive above wins over one below; a photoimageable cover flows too
+    s5 = Stackup((diel("pic", 20, 2.0, 0.35, family="cover"), cu("c", 18, coverage=0.4),
+                  diel("adh", 25, 1.0, 0.4, family="adhesive")))
+    assert s5.layers[1].fill_modulus_pa == 2.0e9
+    # an air gap does not flow: the adhesive on the far side of the copper fills it
+    s6 = Stackup((diel("core", 25, 5.0), cu("c", 18, coverage=0.4),
+                  Layer("g", "air-gap", 10 * UM, 0.0, 0.0, None, None, "air"), diel("adh", 25, 1.0, family="adhesive"),
+                  cu("d", 18)))
+    assert s6.layers[1].fill_modulus_pa == 0.0
     # explicit fill wins; no dielectric neighbour -> air
     s3 = Stackup((diel("film", 25, 2.8), cu("c", 18, coverage=0.4, fill_modulus_pa=2e9, fill_poisson=0.35,
                                           fill_material="x")))

@@ -19,10 +19,23 @@ from strainline.models.bending import bend_strains
 from strainline.models.units import MM
 from strainline.optimizer.inputs.catalog import load_catalog
 from strainline.optimizer.search.problem import build_problem
-from strainline.optimizer.search.space import build_space, cu_col
+from strainline.optimizer.search.space import build_space
 from strainline.optimizer.inputs.study import validate_study
 
 CAT = load_catalog()
+
+
+@pytest.fixture(autouse=True)
+def _closed_form_lines():
+    # These tests are about the mechanics: the line table uses the closed-form impedance model
+    # (fast) where the field-accurate one is the default.
+    try:
+        from strainline.optimizer.search.linetable import table_options
+    except ImportError:
+        yield
+        return
+    with table_options(impedance="closed-form"):
+        yield
 
 BASE = {
     "name": "fast-path",
@@ -75,7 +88,7 @@ def test_fast_path_equals_bend_strains(over):
     t, e, leaf, _ = sp.mechanics(x)
     assert (leaf is None) == (bend.region == "bonded")
     bs = bend_strains(t, e, bend.inner_radius_mm * MM, inside_bottom=(bend.inside == "bottom"), leaf=leaf)
-    cols = [cu_col(i) for i in range(sp.n_cu)]
+    cols = [sp.cu_col(i) for i in range(sp.n_cu)]
     ref = np.maximum(np.abs(bs.strain_top[:, cols]), np.abs(bs.strain_bottom[:, cols]))
     assert ref.max() > 1e-3                 # strains large enough for the comparison to mean something
     np.testing.assert_allclose(cu_peak, ref, rtol=1e-12, atol=0)

@@ -19,6 +19,19 @@ from strainline.optimizer.inputs.study import validate_study
 
 CAT = load_catalog()
 
+
+@pytest.fixture(autouse=True)
+def _closed_form_lines():
+    # These tests are about the mechanics: the line table uses the closed-form impedance model
+    # (fast) where the field-accurate one is the default.
+    try:
+        from strainline.optimizer.search.linetable import table_options
+    except ImportError:
+        yield
+        return
+    with table_options(impedance="closed-form"):
+        yield
+
 STUDY = {
     "name": "space-unit",
     "line": {"type": "microstrip", "target_ohm": 50, "width_range_um": [50, 500], "frequency_ghz": 2},

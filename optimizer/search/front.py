@@ -17,7 +17,9 @@ from strainline.models.units import UM
 from strainline.optimizer.search.problem import CONSTRAINT_TEXT, Problem
 from strainline.optimizer.search.archive import _dominated_by, hypervolume
 from strainline.optimizer.search.engine import SearchResult
-from strainline.optimizer.search.space import Space, cu_col, gap_cols
+from strainline.optimizer.search.leaves import label as leaf_label
+from strainline.optimizer.search.columns import cover_cols
+from strainline.optimizer.search.space import Space
 
 CAUTION = (
     "Estimates for concept work only: verify with the fabricator's impedance modelling and coupons and "
@@ -57,11 +59,15 @@ def candidate_stackup(space: Space, x: np.ndarray, name: str = "") -> Stackup:
     sig = int(d.signal[0])
     names = {0: "top cover film", 1: "top cover adhesive", L - 2: "bottom cover adhesive", L - 1: "bottom cover film"}
     for i in range(N):
-        names[cu_col(i)] = f"L{i + 1} {'signal' if i == sig else 'ground'}"
+        names[space.cu_col(i)] = f"L{i + 1} {'signal' if i == sig else 'ground'}"
     for g in range(N - 1):
-        a, f, b = gap_cols(g)
+        a, f, b = space.gap_cols(g)
         names[a], names[f], names[b] = (f"gap {g + 1} adhesive (upper)", f"gap {g + 1} dielectric",
                                         f"gap {g + 1} adhesive (lower)")
+        if space.unbonded:
+            ca, cf, cf2, ca2 = cover_cols(g)
+            names[ca], names[cf] = f"L{g + 1} leaf cover adhesive", f"L{g + 1} leaf cover film"
+            names[cf2], names[ca2] = f"L{g + 2} leaf cover film", f"L{g + 2} leaf cover adhesive"
     layers: list[Layer] = []
     air_t = 0.0
     for c in range(L):
@@ -75,12 +81,17 @@ def candidate_stackup(space: Space, x: np.ndarray, name: str = "") -> Stackup:
             air_t = 0.0
         m = int(d.material[0, c])
         if m == -1:
-            i = (c - 2) // 4
+            i = (c - 2) // (space.gap_width + 1)
             k = int(d.cu_opt[0, i])
             w, fkey, _ = space.cu_opts[k]
             foil = space.foils[k]
+            fm = int(d.fill_material[0, c])
+            fill = {} if d.coverage[0, c] >= 1 else (
+                {"fill_modulus_pa": 0.0, "fill_poisson": 0.0, "fill_material": "air"} if fm < 0 else
+                {"fill_modulus_pa": space.materials[fm].modulus_pa, "fill_poisson": space.materials[fm].poisson,
+                 "fill_material": space.materials[fm].name})
             layers.append(Layer(names[c], "copper", t, foil.modulus_pa, foil.poisson, None, None, fkey,
-                                coverage=float(d.coverage[0, c]), copper=foil))
+                                coverage=float(d.coverage[0, c]), copper=foil, **fill))
         elif m >= 0 and t > 0:
             mat = space.materials[m]
             layers.append(Layer(names[c], "dielectric", t, mat.modulus_pa, mat.poisson, mat.dk, mat.df, mat.name,
@@ -200,8 +211,10 @@ def build_front(problem: Problem, result: SearchResult, catalog: Any, seed: int,
         if study.bend.region == "unbonded":
             findings.append(_finding(
                 "unbonded-model", "info",
-                "unbonded bend region modelled with every gap not bordering the signal layer as an air gap; "
-                "each loose leaf needs its own cover and its own length allowance",
+                f"unbonded bend region built as leaves {sp.describe(x).get('leaves', leaf_label(sp.leaf_opts[0]))}"
+                " (copper layers per bonded leaf): the bond ply between leaves is left out, every copper keeps "
+                "its core and each leaf face bordering air carries the cover; each leaf bends about its own "
+                "axis and needs its own length allowance",
                 "transformed section per leaf (bending reference notes section 1.7)"))
         layers_out = []
         for lay in rep["layers"]:
@@ -296,11 +309,23 @@ def explain_infeasible(problem: Problem, arch) -> dict[str, Any]:
         out["violations"] = {n: int(v) for n, v in zip(names, arch.violated)}
     if arch.near_G is not None:
         parts = []
-        near_G = problem.evaluate(arch.near_X.reshape(1, -1)).G[0]   # full evaluation (no pruning)
+        ev = problem.evaluate(arch.near_X.reshape(1, -1), want_cycles=True)   # full evaluation (no pruning)
+        near_G, lim, row = ev.G[0], problem.space.study.limits, int(ev.line_row[0])
+        reached = {"total_thickness": (lim.total_thickness_um, ev.total_thickness_m[0] / UM, "um", "at most"),
+                   "peak_strain": (lim.peak_strain_pct, 100 * ev.peak_strain[0], "%", "at most"),
+                   "signal_strain": (lim.signal_strain_pct, 100 * ev.signal_strain[0], "%", "at most"),
+                   "loss": (lim.loss_db_per_m, problem.table.loss_db_per_m[row], "dB/m", "at most"),
+                   "fatigue_life": (lim.min_cycles, None if ev.cycles is None else ev.cycles[0], "cycles", "at least")}
         for n, g in zip(names, near_G):
             if g > 0:
                 over = "equation outside its range" if n == "equation_range" else f"{100 * g:.1f} % over the limit"
-                out["nearest"].append({"constraint": n, "text": CONSTRAINT_TEXT.get(n, n), "excess": _num(g)})
+                limit, got, unit, bound = reached.get(n, (None, None, "", ""))
+                if _num(limit) is not None and _num(got) is not None:
+                    over = (f"{got:,.0f} {unit} reached, {bound} {limit:,.0f} {unit}" if unit == "cycles" else
+                            f"{got:.4g} {unit} reached, {bound} {limit:.4g} {unit}") + \
+                        (" required" if bound == "at least" else " allowed") + f"; {over}"
+                out["nearest"].append({"constraint": n, "text": CONSTRAINT_TEXT.get(n, n), "excess": _num(g),
+                                       "limit": _num(limit), "achieved": _num(got), "unit": unit, "bound": bound})
                 parts.append(f"{CONSTRAINT_TEXT.get(n, n)} ({over})")
         out["nearest_choices"] = problem.space.describe(arch.near_X)
         out["message"] = "no feasible stackup; the nearest candidate misses: " + "; ".join(parts)

@@ -28,7 +28,9 @@ Constraint columns (each is a relative excess over its limit, so 0.1 means 10 % 
 ``total_thickness``, ``peak_strain``, ``signal_strain``, ``loss``: the study limits;
 ``fatigue_life``   the largest copper strain range over the strain range Engelmaier's equation
                    allows for the required cycles (exactly equivalent to cycles >= required,
-                   because the life is monotone in the strain range).
+                   because the life is monotone in the strain range);
+``material_strain``, ``cover_radius``, ``cover``, ``glass``, ``leaves``: every material's limit
+                   (:mod:`.constraints`).
 """
 from __future__ import annotations
 
@@ -36,10 +38,12 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from strainline.models.bending import bend_strains
+from strainline.models.bending import bend_strains, layer_heights
 from strainline.models.fatigue import engelmaier_cycles, engelmaier_strain_range, strain_range
 from strainline.models.units import MM, UM
-from strainline.optimizer.search.space import Space, cu_col
+from strainline.optimizer.search import constraints as material
+from strainline.optimizer.search.faststrain import copper_strains as _copper_strains, fast_tables
+from strainline.optimizer.search.space import Space
 from strainline.optimizer.inputs.study import GAP_KINDS, OBJECTIVE_KEYS, OBJECTIVE_RESOLUTION
 from strainline.optimizer.search.linetable import OUTER_KINDS, LineTable, build_line_table, composite_df  # noqa: F401
 
@@ -87,9 +91,9 @@ class Problem:
     constraint_names: list[str] = field(default_factory=list)
     allowed_range: np.ndarray | None = None   # per copper option, strain range allowed for the life limit
     fast: dict[str, np.ndarray] | None = None  # per-option block sums and per-row line figures (:func:`_fast_tables`)
-    #: Use the group-sum path for unbonded bend regions too (equal to the layer path to ~1e-14, but
-    #: not bit-identical, which steers a seeded evolutionary run elsewhere; off until the studies'
-    #: reference runs are re-recorded with it).
+    #: Kept for callers of the earlier interface: an unbonded region always takes the layer path,
+    #: because the material limits need every layer's strain about its own leaf's axis
+    #: (:meth:`copper_strains` still serves both regions and is tested against ``bend_strains``).
     fast_unbonded: bool = False
 
     @property
@@ -200,16 +204,24 @@ class Problem:
                   slots: dict[str, np.ndarray] | None = None) -> Evaluation:
         sp, study = self.space, self.space.study
         n = x.shape[0]
-        if self.fast is not None and (study.bend.region == "bonded" or sp.n_cu == 1
-                                      or (self.fast_unbonded and self.fast["stiff_leaves"])):
+        if self.fast is not None and not sp.unbonded:
             slots = sp.slots(x) if slots is None else slots
-            total, cu_peak = self.copper_strains(slots)
+            total, cu_peak, yna = self.copper_strains(slots, axis=True)
+            # face strains of every layer about the one axis (exact strain, as bend_strains)
+            t = sp.mechanics(x, slots)[0]
+            yb, yt = layer_heights(t)
+            r, ib = study.bend.inner_radius_mm * MM, study.bend.inside == "bottom"
+            y0 = yna[:, :1]
+            k = 1.0 / (r + y0) if ib else -1.0 / (r + total[:, None] - y0)
+            s_top, s_bot = k * (yt - y0), k * (yb - y0)
         else:
             t, e, leaf, slots = sp.mechanics(x, slots)
             bs = self.strains(t, e, leaf)
-            cols = [cu_col(i) for i in range(sp.n_cu)]
+            cols = [sp.cu_col(i) for i in range(sp.n_cu)]
             cu_peak = np.maximum(np.abs(bs.strain_top[:, cols]), np.abs(bs.strain_bottom[:, cols]))  # (n, N)
             total = t.sum(axis=1)
+            s_top, s_bot = bs.strain_top, bs.strain_bottom
+        mat_g = material.material_constraints(self, slots, s_top, s_bot, total)
         peak = cu_peak.max(axis=1)
         signal, cu_opt = slots["signal"], slots["cu"]
         if len(sp.sig_opts) == 1:
@@ -247,6 +259,8 @@ class Problem:
         for k, c in enumerate(self.constraint_names):
             if c in line_g:
                 G[:, k] = line_g[c]
+            elif c in mat_g:
+                G[:, k] = mat_g[c]
             elif c == "total_thickness":
                 G[:, k] = total / (lim.total_thickness_um * UM) - 1.0
             elif c == "peak_strain":
@@ -276,138 +290,10 @@ class Problem:
             F[feas] = quantize(F[feas], self.resolution)
         return Evaluation(F, G, peak, sig, total, row, cycles)
 
-    def copper_strains(self, slots: dict[str, np.ndarray]) -> tuple[np.ndarray, np.ndarray]:
-        """Total thickness and peak strain of every copper layer, from the slots (bonded or unbonded).
-
-        The same transformed-section model and exact strain as
-        :func:`strainline.models.bending.bend_strains` (Gere & Timoshenko, *Mechanics of
-        Materials*, composite beams), evaluated on groups instead of layers: a cover, a gap
-        ``[adhesive, film, adhesive]`` or a copper layer contributes its thickness ``T``, its
-        stiffness ``S = sum E t`` and its first moment ``M = sum E t y_c`` about its own bottom face,
-        all but the copper looked up per option code (:func:`_fast_tables`). Stacking the groups
-        from the bottom gives ``y_NA = sum (S_g y_g + M_g) / sum S_g``, and only the copper faces
-        are evaluated: ``|eps| = max(|y_b - y_NA|, |y_t - y_NA|) / (R + y_NA)`` with the bottom
-        face inside, ``/ (R + T - y_NA)`` with the top face inside.
-
-        Unbonded bend region: the gaps not bordering the signal copper are air (as in
-        :meth:`Space.mechanics`); the running sums restart above each, and every copper layer
-        takes the neutral axis of its own leaf (heights stay global, as in ``bend_strains``).
-        Used only when every leaf is stiff (every coverage option above 0).
-
-        Parameters
-        ----------
-        slots : dict
-            Per-slot option indices (:meth:`Space.slots`).
-
-        Returns
-        -------
-        total_m : ndarray, (n,)
-            Total stack thickness, m.
-        cu_peak : ndarray, (n, N)
-            Largest strain magnitude over the two faces of each copper layer (fraction), top to
-            bottom.
-        """
-        n = slots["signal"].shape[0]
-        N = self.space.n_cu
-        if n <= BLOCK:
-            return self._strain_rows(slots)
-        total, out = np.empty(n), np.empty((N, n))
-        for a in range(0, n, BLOCK):            # row blocks whose temporaries stay in cache
-            sub = {k: v[a:a + BLOCK] for k, v in slots.items()}
-            total[a:a + BLOCK], out[:, a:a + BLOCK] = self._strain_rows(sub, transposed=True)
-        return total, out.T
-
-    def _strain_rows(self, slots: dict[str, np.ndarray], transposed: bool = False):
-        sp, f = self.space, self.fast
-        b = sp.blocks
-        N = sp.n_cu
-        n = slots["signal"].shape[0]
-
-        def take(table: np.ndarray, index: np.ndarray) -> np.ndarray:
-            # option codes are in range by construction (x on the grid); "clip" skips numpy's
-            # per-element bounds check, which costs as much as the gather itself
-            return table.take(index, mode="clip")
-
-        ct, cb = slots["cover_top"], slots["cover_bot"]
-        cu, cov, film, adh, place = slots["cu"], slots["cov_val"], slots["film"], slots["adh"], slots["place"]
-        n_adh, n_cov = len(sp.adh_opts), len(sp.cover_opts)
-        fill_flat = b["fill"].ravel()
-        n_col = b["fill"].shape[1]
-        gcode = [(film[:, g] * n_adh + adh[:, g]) * 3 + place[:, g] for g in range(N - 1)]
-        # bottom up: running height y, stiffness S and first moment M
-        y = take(f["cb_T"], cb)
-        S = take(f["cb_S"], cb)
-        M = take(f["cb_M"], cb)
-        ybot, tcu = [None] * N, [None] * N
-        unbonded = sp.study.bend.region == "unbonded" and N > 1
-        if unbonded:
-            # gaps not bordering the signal copper are air (Space._leaves): each closes a leaf
-            sig = slots["signal"]
-            air = [(sig != g) & (sig != g + 1) for g in range(N - 1)]
-            closed: list = [None] * (N - 1)          # (S, M) of the leaf ending below air gap g
-        for i in range(N - 1, -1, -1):
-            k = cu[:, i]
-            t = take(b["cu_t"], k)
-            up = ct if i == 0 else n_cov + gcode[i - 1]
-            dn = cb if i == N - 1 else n_cov + gcode[i]
-            fill = take(fill_flat, up * n_col + dn)
-            st = cov[:, i] * (take(b["cu_E"], k) - fill) + fill     # Voigt effective modulus ...
-            st *= t                                                  # ... times thickness
-            S += st
-            M += st * (y + 0.5 * t)
-            ybot[i], tcu[i] = y, t
-            y = y + t
-            if i > 0 and unbonded:
-                g = gcode[i - 1]
-                closed[i - 1] = (S, M)
-                sg = take(f["gap_S"], g)
-                S = np.where(air[i - 1], 0.0, S + sg)
-                M = np.where(air[i - 1], 0.0, M + (sg * y + take(f["gap_M"], g)))
-                y += take(f["gap_T"], g)
-            elif i > 0:
-                g = gcode[i - 1]
-                sg = take(f["gap_S"], g)
-                S += sg
-                M += sg * y
-                M += take(f["gap_M"], g)
-                y += take(f["gap_T"], g)
-        sg = take(f["ct_S"], ct)
-        S += sg
-        M += sg * y
-        M += take(f["ct_M"], ct)
-        y += take(f["ct_T"], ct)
-        total = y
-        r = self.space.study.bend.inner_radius_mm * MM
-        bottom_inside = self.space.study.bend.inside == "bottom"
-        if unbonded:
-            # top down: copper i shares copper i-1's leaf unless the gap between them is air
-            leaf_S, leaf_M = [S], [M]
-            for i in range(1, N):
-                cs, cm = closed[i - 1]
-                leaf_S.append(np.where(air[i - 1], cs, leaf_S[-1]))
-                leaf_M.append(np.where(air[i - 1], cm, leaf_M[-1]))
-            with np.errstate(divide="ignore", invalid="ignore"):
-                yna_i = [m / s_ for s_, m in zip(leaf_S, leaf_M)]    # every leaf holds stiff copper
-                absk_i = [np.abs(1.0 / ((r + v) if bottom_inside else (r + total - v))) for v in yna_i]
-        else:
-            with np.errstate(divide="ignore", invalid="ignore"):
-                if f["stiff"]:
-                    yna = M / S          # every row has stiffness: the signal copper (coverage > 0)
-                else:
-                    yna = np.where(S > 0, M / np.where(S > 0, S, 1.0), 0.5 * total)
-                den = (r + yna) if bottom_inside else (r + total - yna)
-                absk = np.abs(1.0 / den)
-            yna_i, absk_i = [yna] * N, [absk] * N
-        out = np.empty((N, n))
-        for i in range(N):
-            yna, absk = yna_i[i], absk_i[i]
-            a = ybot[i] - yna
-            c = a + tcu[i]
-            np.abs(a, out=a)
-            np.abs(c, out=c)
-            np.maximum(a, c, out=out[i])
-            out[i] *= absk
-        return total, (out if transposed else out.T)
+    def copper_strains(self, slots: dict[str, np.ndarray], axis: bool = False):
+        """Total thickness and peak strain of every copper layer from group sums
+        (:func:`.faststrain.copper_strains`; equal to ``bend_strains`` on the decoded layers)."""
+        return _copper_strains(self, slots, axis)
 
     def objective_keys(self) -> list[str]:
         return [OBJECTIVE_KEYS[o] for o in self.objectives]
@@ -436,29 +322,15 @@ def build_problem(space: Space, catalog) -> Problem:
         a = space.arr
         allowed = engelmaier_strain_range(lim.min_cycles, a["cu_Df"], a["cu_Su"], a["cu_E"])
         names.append("fatigue_life")
+    names += material.names(space)
     pb = Problem(space, table, tuple(study.objectives), names, allowed)
     pb.fast = _fast_tables(pb)
     return pb
 
 
-def _block_sums(t: np.ndarray, e: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """Thickness, ``sum E t`` and first moment ``sum E t y_c`` about the block's bottom face of
-    blocks of layers (k, c), columns top to bottom."""
-    t = np.asarray(t, float)
-    e = np.asarray(e, float)
-    T = t.sum(axis=1)
-    below = T[:, None] - np.cumsum(t, axis=1)        # height of each column's bottom face in its block
-    et = e * t
-    return T, et.sum(axis=1), (et * (below + 0.5 * t)).sum(axis=1)
-
-
 def _fast_tables(pb: Problem) -> dict:
     """Per-option group sums for :meth:`Problem.copper_strains` and per-row line figures."""
-    b = pb.space.blocks
-    out: dict = {}
-    for key, (t, e) in {"ct": (b["cov_t"], b["cov_E"]), "cb": (b["cov_t_rev"], b["cov_E_rev"]),
-                        "gap": (b["gap_t"], b["gap_E"])}.items():
-        out[key + "_T"], out[key + "_S"], out[key + "_M"] = _block_sums(t, e)
+    out = fast_tables(pb.space)
     rows = np.arange(pb.table.n_rows)
     g = pb._line_constraints_direct(rows)
     out["line_g_names"] = list(g)
@@ -466,10 +338,6 @@ def _fast_tables(pb: Problem) -> dict:
         out["line_g_" + c] = np.ascontiguousarray(v, dtype=float)
     out["line_ok"] = pb._line_ok_direct(rows)
     out["loss_q"] = quantize(pb.table.loss_db_per_m, OBJECTIVE_RESOLUTION["loss"])
-    out["stiff"] = bool(np.all(b["cu_t"] > 0) and np.all(b["cu_E"] > 0)
-                        and pb.space.study.stack.signal_coverage > 0)
-    # unbonded leaves: every leaf holds a copper layer, stiff when every coverage option is > 0
-    out["stiff_leaves"] = out["stiff"] and bool(np.all(np.asarray(pb.space.cov_opts) > 0))
     return out
 
 
@@ -484,4 +352,5 @@ CONSTRAINT_TEXT = {
     "signal_strain": "signal copper strain limit",
     "loss": "loss limit",
     "fatigue_life": "required fatigue life",
+    **material.TEXT,
 }

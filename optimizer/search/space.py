@@ -20,6 +20,11 @@ stripline sits on an inner copper layer between the two adjacent copper layers.
 In a symmetric study only the top half is coded and the bottom half mirrors it (the middle gap of
 an even number of gaps uses adhesive on both sides of its film).
 
+Unbonded bend region: each gap widens to seven columns ``[cover adhesive, cover film, adhesive, film,
+adhesive, cover film, cover adhesive]``; at a leaf boundary one adhesive becomes air and the copper
+face that borders it takes the study's cover (:mod:`.leaves`). ``Space.cu_col`` and
+``Space.gap_cols`` give the columns of either layout.
+
 Decision variables are integers ``0 <= x_k < n_k``; a candidate index in ``[0, prod n_k)`` is their
 mixed-radix number (first variable fastest), which the exhaustive search enumerates in chunks.
 """
@@ -30,21 +35,14 @@ from typing import Any
 
 import numpy as np
 
+from strainline.models.stackup import FLOWING_FAMILIES
 from strainline.models.units import UM
 from strainline.optimizer.inputs.study import GAP_KINDS, NONE, Study
+from strainline.optimizer.search.columns import Decoded, cover_cols, cu_col, gap_cols  # noqa: F401
+from strainline.optimizer.search.leaves import label as leaf_label, leaf_options
 
 #: Copper-column index of copper layer i and the three gap columns of gap g (see module docstring).
 PLACEMENTS: tuple[str, ...] = ("below", "above", "both")
-
-
-def cu_col(i: int) -> int:
-    """Column of copper layer ``i`` (0-based, top to bottom)."""
-    return 2 + 4 * i
-
-
-def gap_cols(g: int) -> tuple[int, int, int]:
-    """Columns (adhesive above, film, adhesive below) of gap ``g`` (between copper g and g+1)."""
-    return 3 + 4 * g, 4 + 4 * g, 5 + 4 * g
 
 
 @dataclass(frozen=True)
@@ -57,6 +55,9 @@ class Material:
     poisson: float
     dk: float
     df: float
+    elongation: float = np.inf      # tensile elongation at break, fraction
+    glass: bool = False             # woven-glass reinforced
+    min_radius_m: float = 0.0       # minimum bend radius the catalog gives (0: none)
 
 
 @dataclass(frozen=True)
@@ -66,32 +67,6 @@ class Variable:
     name: str
     size: int
     labels: tuple[str, ...]
-
-
-@dataclass
-class Decoded:
-    """A decoded batch (struct of arrays; a row is a candidate, columns are layer positions)."""
-
-    thickness_m: np.ndarray          # (n, L)
-    modulus_pa: np.ndarray           # (n, L) effective (after coverage; plane strain if asked); 0 air
-    raw_modulus_pa: np.ndarray       # (n, L) material modulus before coverage
-    poisson: np.ndarray              # (n, L)
-    dk: np.ndarray                   # (n, L) nan for copper
-    df: np.ndarray                   # (n, L)
-    material: np.ndarray             # (n, L) int code into Space.materials (-1 copper, -2 air, -3 empty)
-    coverage: np.ndarray             # (n, L) copper coverage (1 elsewhere)
-    fill_modulus_pa: np.ndarray      # (n, L) fill of copper columns (nan elsewhere)
-    leaf: np.ndarray                 # (n, L) int
-    is_air: np.ndarray               # (n, L) bool
-    signal: np.ndarray               # (n,) copper index of the line
-    cu_opt: np.ndarray               # (n, N) copper option index
-    film_opt: np.ndarray             # (n, N-1)
-    adh_opt: np.ndarray              # (n, N-1)
-    place: np.ndarray                # (n, N-1)
-    cover_top: np.ndarray            # (n,)
-    cover_bot: np.ndarray            # (n,)
-    gap_opt: np.ndarray              # (n,)
-    cov_val: np.ndarray              # (n, N) copper coverage per copper layer
 
 
 @dataclass
@@ -110,6 +85,7 @@ class Space:
     cov_opts: tuple[float, ...]
     gap_opts: tuple[float, ...]                              # m; (nan,) when unused
     sig_opts: tuple[int, ...]
+    leaf_opts: list[tuple[bool, ...]] = field(default_factory=list)   # boundary masks (:mod:`.leaves`)
     variables: list[Variable] = field(default_factory=list)
     foils: list[Any] = field(default_factory=list)           # CopperFoil per cu option
     # option tables as arrays (filled in by build_space)
@@ -121,8 +97,23 @@ class Space:
         return {v.name: k for k, v in enumerate(self.variables)}
 
     @property
+    def unbonded(self) -> bool:
+        """True for an unbonded bend region with more than one copper layer (seven-column gaps)."""
+        return self.study.bend.region == "unbonded" and self.n_cu > 1
+
+    @property
+    def gap_width(self) -> int:
+        return 7 if self.unbonded else 3
+
+    def cu_col(self, i: int) -> int:
+        return cu_col(i, self.gap_width)
+
+    def gap_cols(self, g: int) -> tuple[int, int, int]:
+        return gap_cols(g, self.gap_width)
+
+    @property
     def n_layers(self) -> int:
-        return 4 * self.n_cu + 1
+        return 4 + self.n_cu + self.gap_width * (self.n_cu - 1)
 
     @property
     def sizes(self) -> np.ndarray:
@@ -139,7 +130,7 @@ class Space:
     @property
     def is_copper_col(self) -> np.ndarray:
         m = np.zeros(self.n_layers, bool)
-        m[[cu_col(i) for i in range(self.n_cu)]] = True
+        m[[self.cu_col(i) for i in range(self.n_cu)]] = True
         return m
 
     # ------------------------------------------------------------------ encoding
@@ -238,161 +229,18 @@ class Space:
                     for s_ in sig_opts[:-1]:
                         np.copyto(cov_val[i], value(i, s_), where=signal == s_)
         return dict(cu=cu.T, film=film.T, adh=adh.T, place=place.T, cover_top=cover_top, cover_bot=cover_bot,
-                    signal=signal, gap_opt=gap_opt, cov_val=cov_val.T)
+                    signal=signal, gap_opt=gap_opt, cov_val=cov_val.T, leaves=get("leaves"))
 
     def decode(self, x: np.ndarray) -> Decoded:
-        """Decode variable vectors (n, n_var) into (n, L) layer arrays."""
-        s = self.slots(x)
-        n = s["signal"].shape[0]
-        N, L = self.n_cu, self.n_layers
-        a = self.arr
-        t = np.zeros((n, L))
-        mat = np.full((n, L), -3, np.int64)   # -3 = empty position
-        # covers: columns 0,1 (film, adhesive) top; L-2, L-1 (adhesive, film) bottom
-        for (cf, ca), c in (((0, 1), s["cover_top"]), ((L - 1, L - 2), s["cover_bot"])):
-            t[:, cf] = a["cover_tf"][c]
-            mat[:, cf] = a["cover_mf"][c]
-            t[:, ca] = a["cover_ta"][c]
-            mat[:, ca] = a["cover_ma"][c]
-        for i in range(N):
-            t[:, cu_col(i)] = a["cu_t"][s["cu"][:, i]]
-            mat[:, cu_col(i)] = -1
-        for g in range(N - 1):
-            ca, cf, cb = gap_cols(g)
-            ta = a["adh_t"][s["adh"][:, g]]
-            ma = a["adh_m"][s["adh"][:, g]]
-            p = s["place"][:, g]
-            t[:, cf] = a["film_t"][s["film"][:, g]]
-            mat[:, cf] = a["film_m"][s["film"][:, g]]
-            t[:, ca] = np.where(p >= 1, ta, 0.0)
-            t[:, cb] = np.where(p != 1, ta, 0.0)
-            mat[:, ca] = ma
-            mat[:, cb] = ma
-        mat = np.where((t > 0) | (mat == -1), mat, -3)
-        # material constants by code (pad index for -1/-3)
-        E_tab, nu_tab, dk_tab, df_tab = a["mat_E"], a["mat_nu"], a["mat_dk"], a["mat_df"]
-        m_safe = np.where(mat >= 0, mat, 0)
-        E = np.where(mat >= 0, E_tab[m_safe], 0.0)
-        nu = np.where(mat >= 0, nu_tab[m_safe], 0.0)
-        dk = np.where(mat >= 0, dk_tab[m_safe], np.nan)
-        df = np.where(mat >= 0, df_tab[m_safe], np.nan)
-        coverage = np.ones((n, L))
-        fill = np.full((n, L), np.nan)
-        fill_nu = np.zeros((n, L))
-        is_adh = a["mat_adhesive"][m_safe] & (mat >= 0)
-        for i in range(N):
-            c = cu_col(i)
-            E[:, c] = a["cu_E"][s["cu"][:, i]]
-            nu[:, c] = a["cu_nu"][s["cu"][:, i]]
-            coverage[:, c] = s["cov_val"][:, i]
-            # nearest non-empty neighbour above / below (covers: film behind adhesive; gaps: film)
-            up = [1, 0] if i == 0 else list(gap_cols(i - 1))[::-1][:2]
-            dn = [L - 2, L - 1] if i == N - 1 else list(gap_cols(i))[:2]
-            nb = []
-            for cols in (up, dn):
-                first = np.where(t[:, cols[0]] > 0, cols[0], cols[1])
-                ok = t[np.arange(n), first] > 0
-                nb.append((first, ok))
-            (ua, uok), (da, dok) = nb
-            rows = np.arange(n)
-            u_adh = uok & is_adh[rows, ua]
-            d_adh = dok & is_adh[rows, da]
-            pick = np.where(u_adh, ua, np.where(d_adh, da, np.where(uok, ua, da)))
-            has = uok | dok
-            fill[:, c] = np.where(has, E[rows, pick], 0.0)
-            fill_nu[:, c] = np.where(has, nu[rows, pick], 0.0)
-        raw_E = E.copy()
-        if self.study.bend.plane_strain:
-            E = E / (1.0 - nu**2)
-            fill_eff = fill / (1.0 - fill_nu**2)
-        else:
-            fill_eff = fill
-        cu_mask = self.is_copper_col
-        E_eff = np.where(cu_mask, coverage * E + (1.0 - coverage) * np.nan_to_num(fill_eff), E)
-        # unbonded bend region: gaps not bordering the signal layer become air gaps
-        is_air = np.zeros((n, L), bool)
-        leaf = np.zeros((n, L), np.int64)
-        if self.study.bend.region == "unbonded" and N > 1:
-            is_air, leaf = self._leaves(s["signal"])
-            E_eff = np.where(is_air, 0.0, E_eff)
-            mat = np.where(is_air & (t > 0), -2, mat)
-        return Decoded(
-            thickness_m=t, modulus_pa=E_eff, raw_modulus_pa=raw_E, poisson=nu, dk=dk, df=df,
-            material=mat, coverage=coverage, fill_modulus_pa=np.where(cu_mask, fill, np.nan),
-            leaf=leaf, is_air=is_air, signal=s["signal"], cu_opt=s["cu"], film_opt=s["film"],
-            adh_opt=s["adh"], place=s["place"], cover_top=s["cover_top"], cover_bot=s["cover_bot"],
-            gap_opt=s["gap_opt"], cov_val=s["cov_val"],
-        )
+        """Decode variable vectors (n, n_var) into (n, L) layer arrays (:func:`.mechanics.decode`)."""
+        from strainline.optimizer.search.mechanics import decode
+        return decode(self, x)
 
-    def mechanics(self, x: np.ndarray, slots: dict[str, np.ndarray] | None = None
-                  ) -> tuple[np.ndarray, np.ndarray, np.ndarray | None, dict[str, np.ndarray]]:
-        """Fast decode of what the bend model needs: thickness (n, L), effective modulus (n, L), leaf.
+    def mechanics(self, x: np.ndarray, slots: dict[str, np.ndarray] | None = None):
+        """Thickness, effective modulus and leaf ids (n, L) and the slots (:func:`.mechanics.mechanics`)."""
+        from strainline.optimizer.search.mechanics import mechanics
+        return mechanics(self, x, slots)
 
-        Equal to ``decode(x).thickness_m``, ``.modulus_pa`` and ``.leaf`` (a test checks), built from
-        per-option column blocks gathered once per slot instead of per material field.
-
-        Returns
-        -------
-        thickness_m, modulus_pa : ndarray, (n, L)
-        leaf : ndarray of int (n, L), or None for a bonded bend region
-        slots : dict
-            The per-slot option indices (:meth:`slots`).
-        """
-        s = self.slots(x) if slots is None else slots
-        b = self.blocks
-        N, L = self.n_cu, self.n_layers
-        n = s["signal"].shape[0]
-        # built layer-major (L, n) so every write is contiguous; returned as (n, L) Fortran-order
-        # views, which the bend model also reduces faster than C-order arrays
-        tT = np.empty((L, n))
-        eT = np.empty((L, n))
-        ct, cb = s["cover_top"], s["cover_bot"]
-        take = np.take
-        tT[0:2] = take(b["cov_tT"], ct, axis=1)
-        eT[0:2] = take(b["cov_ET"], ct, axis=1)
-        tT[L - 2:] = take(b["cov_tT_rev"], cb, axis=1)
-        eT[L - 2:] = take(b["cov_ET_rev"], cb, axis=1)
-        n_adh = len(self.adh_opts)
-        gcode = [(s["film"][:, g] * n_adh + s["adh"][:, g]) * 3 + s["place"][:, g] for g in range(N - 1)]
-        for g in range(N - 1):
-            c = 3 + 4 * g
-            tT[c:c + 3] = take(b["gap_tT"], gcode[g], axis=1)
-            eT[c:c + 3] = take(b["gap_ET"], gcode[g], axis=1)
-        # copper: Voigt mix with the fill picked by the neighbours (one table gather per layer)
-        n_cov = len(self.cover_opts)
-        fill_flat = b["fill"].ravel()
-        n_col = b["fill"].shape[1]
-        for i in range(N):
-            c = 2 + 4 * i
-            up = ct if i == 0 else n_cov + gcode[i - 1]
-            dn = cb if i == N - 1 else n_cov + gcode[i]
-            fill = take(fill_flat, up * n_col + dn)
-            cov = s["cov_val"][:, i]
-            k = s["cu"][:, i]
-            tT[c] = take(b["cu_t"], k)
-            eT[c] = cov * (take(b["cu_E"], k) - fill) + fill
-        t, e = tT.T, eT.T
-        leaf = None
-        if self.study.bend.region == "unbonded" and N > 1:
-            is_air, leaf = self._leaves(s["signal"])
-            e = np.where(is_air, 0.0, e)
-        return t, e, leaf, s
-
-    def _leaves(self, sig: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-        """Air-gap mask and leaf ids (n, L): gaps not bordering the signal layer are unbonded."""
-        n, L = sig.shape[0], self.n_layers
-        is_air = np.zeros((n, L), bool)
-        leaf = np.zeros((n, L), np.int64)
-        k = np.zeros(n, np.int64)
-        prev = np.zeros(n, bool)
-        for c in range(L):
-            g = (c - 3) // 4 if (3 <= c < L - 2 and c % 4 != 2) else -1
-            air = (g != sig - 1) & (g != sig) if g >= 0 else np.zeros(n, bool)
-            k = k + (air & ~prev) + (~air & prev)
-            is_air[:, c] = air
-            leaf[:, c] = k
-            prev = air
-        return is_air, leaf
 
     def describe(self, x: np.ndarray) -> dict[str, str]:
         """Human-readable value of every variable of one candidate."""
@@ -423,7 +271,8 @@ def build_space(study: Study, catalog: Any) -> Space:
         if name not in mat_index:
             d = catalog.dielectrics[name]
             mat_index[name] = len(materials)
-            materials.append(Material(name, d.family, d.modulus_pa, d.poisson, d.dk, d.df))
+            materials.append(Material(name, d.family, d.modulus_pa, d.poisson, d.dk, d.df, d.elongation,
+                                      d.glass_reinforced, float(getattr(d, "min_bend_radius_m", None) or 0.0)))
         return mat_index[name]
 
     # covers
@@ -482,7 +331,7 @@ def build_space(study: Study, catalog: Any) -> Space:
         sig_opts = tuple(sorted(set(allowed)))
 
     sp = Space(study, N, materials, mat_index, cover_opts, cu_opts, film_opts, adh_opts, place_opts,
-               tuple(st.ground_coverage), gap_opts, sig_opts, foils=foils)
+               tuple(st.ground_coverage), gap_opts, sig_opts, leaf_options(study, N, sig_opts), foils=foils)
     # variables
     V: list[Variable] = []
     half_cu = (N + 1) // 2 if st.symmetric else N
@@ -509,6 +358,8 @@ def build_space(study: Study, catalog: Any) -> Space:
             V.append(Variable(f"coverage[{j}]", len(sp.cov_opts), tuple(f"{c:g}" for c in sp.cov_opts)))
     if len(gap_opts) > 1:
         V.append(Variable("line_gap", len(gap_opts), tuple(_fmt_um(g) for g in gap_opts)))
+    if len(sp.leaf_opts) > 1:
+        V.append(Variable("leaves", len(sp.leaf_opts), tuple(leaf_label(m) for m in sp.leaf_opts)))
     sp.variables = [v for v in V if v.size >= 1]
     # option arrays
     sp.arr = {
@@ -532,69 +383,15 @@ def build_space(study: Study, catalog: Any) -> Space:
         "mat_dk": np.array([m.dk for m in materials] or [1.0]),
         "mat_df": np.array([m.df for m in materials] or [0.0]),
         "mat_adhesive": np.array([m.family == "adhesive" for m in materials] or [False]),
+        "mat_flows": np.array([m.family in FLOWING_FAMILIES for m in materials] or [False]),
+        "mat_elong": np.array([m.elongation for m in materials] or [np.inf]),
+        "mat_glass": np.array([m.glass for m in materials] or [False]),
+        "mat_rmin": np.array([m.min_radius_m for m in materials] or [0.0]),
+        "leaf_mask": np.array(sp.leaf_opts, bool).reshape(len(sp.leaf_opts), max(N - 1, 0)),
     }
-    sp.blocks = _blocks(sp)
+    from strainline.optimizer.search.mechanics import blocks
+    sp.blocks = blocks(sp)
     return sp
 
 
-def _blocks(sp: Space) -> dict[str, np.ndarray]:
-    """Per-option column blocks for :meth:`Space.mechanics` (plane-strain moduli if asked)."""
-    a = sp.arr
-    ps = sp.study.bend.plane_strain
-
-    def E_of(m: np.ndarray) -> np.ndarray:
-        ms = np.where(m >= 0, m, 0)
-        e = a["mat_E"][ms] / ((1.0 - a["mat_nu"][ms] ** 2) if ps else 1.0)
-        return np.where(m >= 0, e, 0.0)
-
-    def adh_of(m: np.ndarray) -> np.ndarray:
-        return (m >= 0) & a["mat_adhesive"][np.where(m >= 0, m, 0)]
-
-    # covers: columns (film, adhesive) as seen from the top; the copper side is the adhesive
-    tf, ta, mf, ma = a["cover_tf"], a["cover_ta"], a["cover_mf"], a["cover_ma"]
-    cov_t = np.stack([tf, ta], axis=1)
-    cov_E = np.stack([E_of(mf), E_of(ma)], axis=1)
-    near_adh = ta > 0
-    cov_fE = np.where(near_adh, E_of(ma), np.where(tf > 0, E_of(mf), 0.0))
-    cov_fadh = np.where(near_adh, adh_of(ma), adh_of(mf) & (tf > 0))
-    cov_fok = (ta > 0) | (tf > 0)
-    # gaps: combined code (film * n_adh + adh) * 3 + placement -> columns (adh above, film, adh below)
-    nf, na = len(sp.film_opts), len(sp.adh_opts)
-    f_i, a_i, p_i = np.meshgrid(np.arange(nf), np.arange(na), np.arange(3), indexing="ij")
-    f_i, a_i, p_i = f_i.ravel(), a_i.ravel(), p_i.ravel()
-    gtf, gmf = a["film_t"][f_i], a["film_m"][f_i]
-    gta, gma = a["adh_t"][a_i], a["adh_m"][a_i]
-    gta = np.where(gma >= 0, gta, 0.0)
-    t_up = np.where(p_i >= 1, gta, 0.0)
-    t_dn = np.where(p_i != 1, gta, 0.0)
-    gap_t = np.stack([t_up, gtf, t_dn], axis=1)
-    Ea, Ef = E_of(gma), E_of(gmf)
-    gap_E = np.stack([np.where(t_up > 0, Ea, 0.0), Ef, np.where(t_dn > 0, Ea, 0.0)], axis=1)
-    # fill of a copper layer from its two neighbours: rows = neighbour above (cover options, then gap
-    # codes seen from below), columns = neighbour below (cover options, then gap codes seen from
-    # above). Rule of resolve_fills: adjacent adhesive above, else below, else dielectric above,
-    # else below, else air (0).
-    ue = np.concatenate([cov_fE, np.where(t_dn > 0, Ea, Ef)])
-    ua = np.concatenate([cov_fadh, (t_dn > 0) & adh_of(gma)])
-    uok = np.concatenate([cov_fok, np.ones(len(gtf), bool)])
-    de = np.concatenate([cov_fE, np.where(t_up > 0, Ea, Ef)])
-    da = np.concatenate([cov_fadh, (t_up > 0) & adh_of(gma)])
-    dok = uok.copy()
-    UE, DE = ue[:, None], de[None, :]
-    UA, DA, UOK, DOK = (ua & uok)[:, None], (da & dok)[None, :], uok[:, None], dok[None, :]
-    fill = np.where(UA, UE, np.where(DA, DE, np.where(UOK, UE, np.where(DOK, DE, 0.0))))
-    return {
-        "fill": np.ascontiguousarray(np.broadcast_to(fill, (len(ue), len(de)))),
-        "cov_t_rev": cov_t[:, ::-1].copy(), "cov_E_rev": cov_E[:, ::-1].copy(),
-        "cov_tT": np.ascontiguousarray(cov_t.T), "cov_ET": np.ascontiguousarray(cov_E.T),
-        "cov_tT_rev": np.ascontiguousarray(cov_t[:, ::-1].T), "cov_ET_rev": np.ascontiguousarray(cov_E[:, ::-1].T),
-        "gap_tT": np.ascontiguousarray(gap_t.T), "gap_ET": np.ascontiguousarray(gap_E.T),
-        "cov_t": cov_t, "cov_E": cov_E, "cov_fE": cov_fE, "cov_fadh": cov_fadh, "cov_fok": cov_fok,
-        "cu_t": a["cu_t"], "cu_E": a["cu_E"] / ((1.0 - a["cu_nu"] ** 2) if ps else 1.0),
-        "gap_t": gap_t, "gap_E": gap_E,
-        "gap_upE": np.where(t_up > 0, Ea, Ef), "gap_upadh": (t_up > 0) & adh_of(gma),
-        "gap_dnE": np.where(t_dn > 0, Ea, Ef), "gap_dnadh": (t_dn > 0) & adh_of(gma),
-    }
-
-
-__all__ = ["Space", "Decoded", "Variable", "build_space", "cu_col", "gap_cols"]
+__all__ = ["Space", "Decoded", "Variable", "build_space", "cu_col", "gap_cols", "cover_cols"]

@@ -1,0 +1,143 @@
+"""Every material's limit as a search constraint (columns ``g <= 0``, pymoo convention).
+
+``material_strain``  the strain at each face of every dielectric, adhesive and cover over its
+                     tensile elongation derated by ``limits.elongation_fraction`` (default 0.5);
+                     the largest over the stack, minus 1. Elongation at break from the catalog;
+                     the derating is a stated design margin (common practice, no source).
+``cover_radius``     the bend's inner radius against the minimum bend radius the catalog gives for
+                     a cover (e.g. a photoimageable cover, about 10 mm: K. Smith, Flex007 column
+                     part II, 2019); measured at the inner radius (every cover sits at or outside it).
+``cover``            dynamic bend only, unless ``bend.allow_uncovered``: +1 when a copper layer is
+                     bare at a face of its leaf (no dielectric between it and the outside or an air
+                     gap), -1 otherwise (common practice, no source: a coverlay on both faces of a
+                     dynamic flex).
+``glass``            woven-glass laminate in the bend: +1 in a dynamic bend; in an install bend the
+                     one-time bend ratio (inner radius >= 10 x thickness, common practice, no source)
+                     as ``10 T / R - 1``.
+``leaves``           unbonded region: +1 when the candidate's leaf grouping cannot be built
+                     (:mod:`.leaves`), -1 otherwise.
+
+The same functions serve the general and the fast evaluation, so both give identical columns.
+"""
+from __future__ import annotations
+
+from typing import Any
+
+import numpy as np
+
+from strainline.models.units import MM
+from strainline.optimizer.search.mechanics import _plan
+
+#: Inner radius over thickness for a one-time bend (common practice, no source); the gentle-radius
+#: rule a woven-glass laminate must meet in an install bend.
+GLASS_INSTALL_RATIO = 10.0
+
+TEXT = {
+    "material_strain": "dielectric, adhesive and cover strain within elongation x limits.elongation_fraction",
+    "cover_radius": "bend radius at least the cover's minimum bend radius",
+    "cover": "a cover on both faces of every leaf in a dynamic bend",
+    "glass": "no woven-glass laminate in a dynamic bend; above 10 x thickness in an install bend",
+    "leaves": "a buildable leaf grouping (bond ply between leaves, a core in every leaf, the line's plane "
+              "in its leaf)",
+}
+
+
+def elongation_fraction(study: Any) -> float:
+    """``limits.elongation_fraction`` (default 0.5)."""
+    v = getattr(study.limits, "elongation_fraction", None)
+    return 0.5 if v is None else float(v)
+
+
+def allow_uncovered(study: Any) -> bool:
+    return bool(getattr(study.bend, "allow_uncovered", False))
+
+
+def names(space: Any) -> list[str]:
+    """The material-limit constraint columns a study gets, in order."""
+    study, a = space.study, space.arr
+    out = ["material_strain"]
+    if _cover_rmin(space).max(initial=0.0) > 0:
+        out.append("cover_radius")
+    if study.bend.use == "dynamic" and not allow_uncovered(study):
+        out.append("cover")
+    if bool(a["mat_glass"].any()) and len(space.materials):
+        out.append("glass")
+    if space.unbonded:
+        out.append("leaves")
+    return out
+
+
+def _cover_rmin(space: Any) -> np.ndarray:
+    a = space.arr
+    r = np.zeros(len(space.cover_opts))
+    for key in ("cover_mf", "cover_ma"):
+        m = a[key]
+        r = np.maximum(r, np.where(m >= 0, a["mat_rmin"][np.where(m >= 0, m, 0)], 0.0))
+    return r
+
+
+def bare_faces(space: Any, t: np.ndarray, is_air: np.ndarray) -> np.ndarray:
+    """Copper faces (n,) with nothing but air or the outside between them and the leaf surface."""
+    N, L = space.n_cu, space.n_layers
+    n = t.shape[0]
+    cols = [space.cu_col(i) for i in range(N)]
+    count = np.zeros(n, np.int64)
+    for i, c in enumerate(cols):
+        lo = cols[i - 1] + 1 if i > 0 else 0
+        hi = cols[i + 1] if i < N - 1 else L
+        for rng in (range(c - 1, lo - 1, -1), range(c + 1, hi)):
+            found = np.zeros(n, bool)
+            bare = np.ones(n, bool)
+            for k in rng:
+                hit = ~found & (t[:, k] > 0)
+                bare = np.where(hit, is_air[:, k], bare)
+                found |= hit
+            count += bare
+    return count
+
+
+def material_constraints(problem: Any, slots: dict[str, np.ndarray], strain_top: np.ndarray,
+                         strain_bottom: np.ndarray, total_m: np.ndarray) -> dict[str, np.ndarray]:
+    """The material-limit columns of a batch (see the module docstring).
+
+    Parameters
+    ----------
+    problem : Problem
+    slots : dict
+        Per-slot option indices.
+    strain_top, strain_bottom : ndarray, (n, L)
+        Face strains of every column (fraction).
+    total_m : ndarray, (n,)
+        Total stack thickness, m.
+    """
+    sp = problem.space
+    study, a = sp.study, sp.arr
+    want = [c for c in problem.constraint_names if c in TEXT]
+    if not want:
+        return {}
+    t, mat, is_air, ok = _plan(sp, slots)
+    out: dict[str, np.ndarray] = {}
+    r = study.bend.inner_radius_mm * MM
+    if "material_strain" in want:
+        m_safe = np.where(mat >= 0, mat, 0)
+        inv = np.where(mat >= 0, 1.0 / (a["mat_elong"][m_safe] * elongation_fraction(study)), 0.0)
+        worst = np.maximum(np.abs(strain_top), np.abs(strain_bottom))
+        out["material_strain"] = np.max(np.where(inv > 0, worst * inv, 0.0), axis=1) - 1.0
+    if "cover_radius" in want:
+        rmin = _cover_rmin(sp)
+        out["cover_radius"] = np.maximum(rmin[slots["cover_top"]], rmin[slots["cover_bot"]]) / r - 1.0
+    if "cover" in want:
+        out["cover"] = np.where(bare_faces(sp, t, is_air) > 0, 1.0, -1.0)
+    if "glass" in want:
+        m_safe = np.where(mat >= 0, mat, 0)
+        has = ((mat >= 0) & a["mat_glass"][m_safe] & (t > 0)).any(axis=1)
+        if study.bend.use == "dynamic":
+            out["glass"] = np.where(has, 1.0, -1.0)
+        else:
+            out["glass"] = np.where(has, GLASS_INSTALL_RATIO * total_m / r - 1.0, -1.0)
+    if "leaves" in want:
+        out["leaves"] = np.where(ok, -1.0, 1.0)
+    return out
+
+
+__all__ = ["material_constraints", "names", "bare_faces", "TEXT", "GLASS_INSTALL_RATIO"]
