@@ -244,8 +244,8 @@ class SearchModel(Base):
     seed: K.num(0, 2**32 - 1, integer=True) = 1
     population: K.num(8, 100000, integer=True) = 100
     impedance: K.choice(("field", "closed-form"), description=(
-        "impedance of the line table: field (closed form corrected by the field solver) or closed-form "
-        "(default field)")) = "field"
+        "what decides the line's impedance in the search: field (a field-accurate line table, the default) or "
+        "closed-form (the published equations alone)")) = "field"
 
 
 class StudyModel(Base):
