@@ -1,21 +1,23 @@
 """Unit conversions and physical constants (SI inside, units in names at the edges).
 
-Constants come from :mod:`scipy.constants` (CODATA 2018).
+The electromagnetic constants are literals, so importing this module costs nothing (no
+:mod:`scipy.constants`): the speed of light is exact by the 2019 SI definition of the metre
+(BIPM, The International System of Units, 9th ed., 2019); the vacuum permeability and permittivity
+are the CODATA 2022 recommended values (Mohr, Newell, Taylor & Tiesinga, NIST 2024; the values
+scipy.constants carries), no longer exact since the 2019 SI redefinition.
 """
 from __future__ import annotations
 
 import math
 
-from scipy import constants as _c
-
-#: Speed of light in vacuum, m/s.
-C0: float = _c.c
-#: Vacuum permeability, H/m.
-MU0: float = _c.mu_0
-#: Vacuum permittivity, F/m.
-EPS0: float = _c.epsilon_0
+#: Speed of light in vacuum, m/s (exact, SI 2019).
+C0: float = 299792458.0
+#: Vacuum permeability, H/m (CODATA 2022: 1.25663706127(20)e-6).
+MU0: float = 1.25663706127e-06
+#: Vacuum permittivity, F/m (CODATA 2022: 8.8541878188(14)e-12).
+EPS0: float = 8.8541878188e-12
 #: Free-space wave impedance sqrt(mu0/eps0), ohm (376.730...).
-ETA0: float = math.sqrt(_c.mu_0 / _c.epsilon_0)
+ETA0: float = math.sqrt(MU0 / EPS0)
 
 #: Length conversions to metres.
 UM: float = 1e-6
