@@ -166,3 +166,92 @@ def test_catalog_alias_bomb_and_duplicate_walk_are_bounded(tmp_path):
     with pytest.raises(CatalogError, match="YAML aliases expand to more than 200,000 values"):
         load_catalog(folder)
     assert time.perf_counter() - t0 < 1.0
+
+
+# ---------------------------------------------------------------------------------------------
+# seeded fuzz: random values of every kind at random fields give a Study or ONE StudyError line
+_FUZZ_STUDY = {
+    "name": "unit", "catalog": "x",
+    "line": {"type": "microstrip", "target_ohm": 50, "width_range_um": [75, 400], "frequency_ghz": 2,
+             "tolerance": "10%", "nominal_error_pct": 3, "gap_um": 100},
+    "bend": {"inner_radius_mm": 5, "use": "dynamic", "cycles": 10000, "region": "unbonded", "leaves": [[1], [2]],
+             "allow_uncovered": False, "plane_strain": True, "inside": "top", "motion": "reversed"},
+    "stack": {"copper_layers": 2, "copper_weights": ["1/3oz"], "dielectric": ["polyimide-film"], "symmetric": True,
+              "signal_layer": 1, "order": "free", "copper_types": ["rolled-annealed"],
+              "coverlay": ["polyimide-coverlay-acrylic"], "adhesive": ["none", "acrylic-adhesive"],
+              "dielectric_thickness_um": {"polyimide-film": [25]}, "adhesive_thickness_um": [25],
+              "ground_coverage": [1, 0.5], "signal_coverage": 0.3},
+    "limits": {"total_thickness_um": 300, "peak_strain_pct": 0.3, "min_cycles": 1e5, "elongation_fraction": 0.5},
+    "objectives": ["loss", "life"],
+    "search": {"method": "auto", "budget": 1000, "seed": 3, "population": 50, "impedance": "closed-form"},
+}
+_FUZZ_VALUES = [None, 0, -1, 1, 2.5, 1e300, -1e300, float("nan"), float("inf"), 10 ** 400, "", "x", "auto", "10%",
+                "1.2.3%", [], [1], [[1]], {}, {"a": 1}, True, False, [None], ["1/2oz"], [1e300],
+                {"polyimide-film": 1e300}, [[1, 2], [3]], "0.5 oz", {1: 2}, [float("nan")]]
+
+
+def _paths(d, prefix=()):
+    for k, v in d.items():
+        yield (*prefix, k)
+        if isinstance(v, dict):
+            yield from _paths(v, (*prefix, k))
+
+
+def test_fuzzed_studies_give_a_study_or_one_line():
+    import random
+
+    from strainline.optimizer.errors import StudyError
+    from strainline.optimizer.inputs.catalog import load_catalog
+    from strainline.optimizer.inputs.study import validate_study
+
+    rng = random.Random(7)
+    paths = list(_paths(_FUZZ_STUDY))
+    cat = load_catalog()
+    outcomes = {"ok": 0, "error": 0}
+    for _ in range(1500):
+        d = copy.deepcopy(_FUZZ_STUDY)
+        for _ in range(rng.randint(1, 3)):
+            p = rng.choice(paths)
+            node = d
+            for k in p[:-1]:
+                node = node[k] if isinstance(node, dict) else {}
+            if isinstance(node, dict):
+                node[p[-1]] = copy.deepcopy(rng.choice(_FUZZ_VALUES))
+        try:
+            validate_study(d, cat, file="f.yaml")
+            outcomes["ok"] += 1
+        except StudyError as exc:   # anything else fails the test with its traceback
+            assert "\n" not in str(exc) and str(exc).startswith("f.yaml: ")
+            outcomes["error"] += 1
+    assert outcomes["ok"] > 0 and outcomes["error"] > 0, outcomes   # the fuzz reaches both ends
+
+
+def test_fuzzed_stackups_give_a_stackup_or_one_line(tmp_path):
+    import random
+
+    from strainline.optimizer.errors import StackupError
+    from strainline.optimizer.inputs.catalog import load_catalog
+    from strainline.optimizer.inputs.stackup_file import load_stackup
+
+    base = {"name": "s", "bend_area_features": ["button-plating"], "layers": [
+        {"name": "cov", "material": "polyimide-coverlay-acrylic", "film_um": 12.5, "adhesive_um": 25},
+        {"name": "sig", "kind": "copper", "copper": "rolled-annealed", "weight": "1/2oz", "coverage": 0.3,
+         "fill": "acrylic-adhesive", "yield_strength_mpa": 150},
+        {"name": "core", "material": "polyimide-film", "thickness_um": 25, "dk": 3.4},
+        {"name": "gap", "kind": "air-gap", "thickness_um": 0},
+        {"name": "inl", "thickness_um": 25, "modulus_gpa": 3, "poisson": 0.3},
+        {"name": "gnd", "kind": "copper", "copper": "rolled-annealed", "thickness_um": 12}]}
+    rng = random.Random(7)
+    cat = load_catalog()
+    for i in range(250):
+        d = copy.deepcopy(base)
+        layer = rng.choice(d["layers"])
+        layer[rng.choice([*layer, "kind", "thickness_um"])] = copy.deepcopy(rng.choice(_FUZZ_VALUES))
+        if rng.random() < 0.2:
+            d[rng.choice(["name", "layers", "bend_area_features", "description"])] = rng.choice(_FUZZ_VALUES)
+        p = tmp_path / f"f{i}.yaml"
+        p.write_text(yaml.safe_dump(d), encoding="utf-8")
+        try:
+            load_stackup(p, cat)
+        except StackupError as exc:
+            assert "\n" not in str(exc) and str(exc).startswith(str(p))

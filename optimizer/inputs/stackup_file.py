@@ -101,7 +101,7 @@ def load_stackup(path: str | os.PathLike[str], catalog) -> Stackup:
             layers.append(_air_gap(rd.layer(M.AirGapLayer, entry, field), before + 1))
         elif kind == "copper":
             layers.append(_copper(rd, rd.layer(M.CopperLayer, entry, field), field, catalog, before + 1))
-        elif entry.get("material") in catalog.coverlays:
+        elif isinstance(entry.get("material"), str) and entry["material"] in catalog.coverlays:
             above = kinds[i - 1] if i > 0 else None
             below = kinds[i + 1] if i + 1 < len(kinds) else None
             e = rd.layer(M.CoverlayLayer, entry, field)
