@@ -73,7 +73,11 @@ class Layer:
         Dielectric family from the catalog (``"adhesive"``, ``"film"``, ...), used to pick the fill.
     fill_material : str or None
         Name of the fill (catalog key, ``"air"`` or ``"inline"``); ``None`` lets :class:`Stackup`
-        pick the adjacent adhesive, else the adjacent dielectric.
+        pick it (:func:`resolve_fills`).
+    elongation : float or None
+        Tensile elongation at break of a dielectric, fraction (None: no limit known).
+    min_bend_radius_m : float or None
+        Smallest bend radius the material tolerates, m (a photoimageable cover), where a source gives one.
     """
 
     name: str
@@ -91,6 +95,8 @@ class Layer:
     glass_reinforced: bool = False
     family: str | None = None
     fill_material: str | None = None
+    elongation: float | None = None
+    min_bend_radius_m: float | None = None
 
     def __post_init__(self) -> None:
         _check(self.kind in LAYER_KINDS, f"kind {self.kind!r} is not one of {list(LAYER_KINDS)}")

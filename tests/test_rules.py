@@ -90,8 +90,13 @@ def test_dynamic_bonded_multilayer_not_recommended():
 
 
 def test_material_and_feature_findings():
-    assert "glass-in-bend" in codes(rules.bend_findings(single_sided(glass=True), 5e-3))
-    assert "glass-in-bend" not in codes(rules.bend_findings(single_sided(), 5e-3))
+    # woven glass (common practice, no source): never in a dynamic bend; in an install bend allowed
+    # above the one-time ratio 10 x T (T = 108 um -> 1.08 mm), flagged below it
+    g = single_sided(glass=True)
+    assert "glass-dynamic" in codes(rules.material_findings(g, 5e-3, "dynamic"))
+    assert "glass-install" in codes(rules.material_findings(g, 1.1e-3, "install"))
+    assert "glass-install-tight" in codes(rules.material_findings(g, 1.0e-3, "install"))
+    assert not codes(rules.material_findings(single_sided(), 5e-3, "dynamic"))
     # electrodeposited copper flagged in a dynamic bend only (IPC-TR-484 recommendation)
     ed = single_sided(foil=ED)
     assert "ed-copper-dynamic" in codes(rules.bend_findings(ed, 50e-3, "dynamic"))
@@ -141,3 +146,39 @@ def test_ipc2223_formula_finding_matches_general_model_on_balanced_build():
     bare = Stackup((cu("c"), diel("base", 50)))
     assert "ipc2223-formula-unbalanced" in codes(rules.bend_findings(bare, 5e-3, "install"))
     assert "ipc2223-formula-unbalanced" not in codes(rules.bend_findings(s, 5e-3, "install"))
+
+
+def test_dielectric_strain_within_derated_elongation():
+    # The strain at a dielectric face against elongation x fraction (catalog elongation; the 0.5
+    # derating is common practice, no source). Balanced 45/18/45 build, bottom inside: the outer
+    # cover face sits 54 um above the axis, strain 54/(R + 54) (exact Euler-Bernoulli strain,
+    # bending note section 1.2). With a 6 % elongation epoxy-like cover the limit is 3 %:
+    # 54/(R + 54) = 0.03 at R = 1746 um.
+    def stack():
+        cover = Layer("cover", "dielectric", 45 * UM, 2.8 * GPA, 0.34, 3.3, 0.005, "inline", family="adhesive",
+                      elongation=0.06)
+        return Stackup((cover, cu("sig"), diel("base", 45)))
+    assert "dielectric-strain" in codes(rules.material_findings(stack(), 0.99 * 1746e-6))
+    assert "dielectric-strain" not in codes(rules.material_findings(stack(), 1.01 * 1746e-6))
+    # a stated fraction of 1 allows the full 6 %: 54/(R + 54) = 0.06 at R = 846 um
+    assert "dielectric-strain" not in codes(rules.material_findings(stack(), 0.9 * 1746e-6, elongation_fraction=1.0))
+    assert "dielectric-strain" in codes(rules.material_findings(stack(), 0.99 * 846e-6, elongation_fraction=1.0))
+
+
+def test_cover_minimum_radius_and_cover_on_both_faces():
+    # Photoimageable cover minimum bend radius 0.4 in = 10.16 mm (K. Smith, Flex007 column part II, 2019)
+    pic = Layer("pic", "dielectric", 20 * UM, 2.0 * GPA, 0.35, 3.6, 0.028, "inline", family="cover",
+                min_bend_radius_m=10.16e-3)
+    s = Stackup((pic, cu("sig"), diel("base", 45)))
+    assert "cover-min-radius" in codes(rules.material_findings(s, 10.0e-3))
+    assert "cover-min-radius" not in codes(rules.material_findings(s, 10.2e-3))
+    # a dynamic flex needs a cover on both faces of every leaf (common practice, no source)
+    bare = Stackup((cu("sig"), diel("base", 45)))
+    assert "copper-uncovered-dynamic" in codes(rules.material_findings(bare, 20e-3, "dynamic"))
+    assert "copper-uncovered-dynamic" not in codes(rules.material_findings(bare, 20e-3, "install"))
+    assert "copper-uncovered-dynamic" not in codes(rules.material_findings(bare, 20e-3, "dynamic",
+                                                                           allow_uncovered=True))
+    # a leaf face bordering an air gap counts as bare; a covered one does not
+    gap = Layer("gap", "air-gap", 10 * UM, 0.0, 0.0, None, None, "air")
+    leafy = Stackup((diel("c", 25), cu("a"), diel("core", 25), cu("b"), gap, diel("core2", 25), cu("c3"), diel("d", 25)))
+    assert rules.bare_copper(leafy) == ("b",)

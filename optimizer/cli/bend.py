@@ -2,6 +2,10 @@
 
     strainline bend STACKUP.yaml --inner-radius-mm R [--inside bottom|top] [--motion flat-to-bent|reversed]
                     [--plane-strain] [--plastic] [--json] [--use install|dynamic] [--cycles N]
+                    [--elongation-fraction F] [--allow-uncovered]
+
+An option that does not apply to the chosen use is an error (one line, exit 2), never ignored:
+``--cycles`` and ``--allow-uncovered`` need ``--use dynamic``.
 """
 from __future__ import annotations
 
@@ -10,7 +14,8 @@ import json
 import math
 from typing import Any
 
-from strainline.optimizer.search.bend_report import INSIDES, MOTIONS, USES, bend_report
+from strainline.optimizer.errors import InputError
+from strainline.optimizer.search.bend_report import INSIDES, MOTIONS, PLASTIC_SHIFT, USES, bend_report
 from strainline.optimizer.inputs.catalog import load_catalog
 from strainline.optimizer.inputs.stackup_file import load_stackup
 
@@ -35,6 +40,16 @@ def _cycles(text: str) -> float:
     return v
 
 
+def _fraction(text: str) -> float:
+    try:
+        v = float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"{text!r} is not a number; allowed (0, 1]") from None
+    if not (math.isfinite(v) and 0 < v <= 1):
+        raise argparse.ArgumentTypeError(f"{text!r} is out of range; allowed (0, 1]")
+    return v
+
+
 def register(subparsers) -> argparse.ArgumentParser:
     p = subparsers.add_parser(
         "bend",
@@ -50,12 +65,17 @@ def register(subparsers) -> argparse.ArgumentParser:
     p.add_argument("--motion", choices=MOTIONS, default="flat-to-bent",
                    help="bend cycle for fatigue: flat-to-bent (range = peak) or reversed (range = 2 x peak)")
     p.add_argument("--plane-strain", action="store_true", help="use E/(1-nu^2) for every layer (wide strip)")
-    p.add_argument("--plastic", action="store_true",
-                   help="also solve with elastic-perfectly-plastic copper (neutral axis from force balance)")
+    p.add_argument("--plastic", action="store_true", default=None,
+                   help="also solve with elastic-perfectly-plastic copper (neutral axis from force balance); "
+                        "done anyway whenever copper passes yield")
     p.add_argument("--use", choices=USES, default="install",
                    help="one-time install bend or dynamic flexing (strain limit and ratio rules; default install)")
     p.add_argument("--cycles", type=_cycles, default=None,
                    help="target life for the dynamic strain limit (default 1e6)")
+    p.add_argument("--elongation-fraction", type=_fraction, default=0.5, metavar="F",
+                   help="share of each dielectric's elongation at break allowed (default 0.5)")
+    p.add_argument("--allow-uncovered", action="store_true",
+                   help="dynamic use: waive the rule that every leaf face carries a cover")
     p.add_argument("--json", action="store_true", help="print one JSON object")
     return p
 
@@ -89,13 +109,33 @@ def format_table(rep: dict[str, Any]) -> str:
     b = rep["min_radius_basis"]
     lines.append(f"min inner radius for {_f(b['strain_limit_pct'], '.3g')} % copper strain ({b['basis']}; "
                  f"{b['source']}): {rep['min_radius_mm']:.3f} mm")
+    if len(rep["leaves"]) > 1:
+        lines.append("leaves (top to bottom): axis from the bottom face, nested inner radius, peak strain")
+        for k, lf in enumerate(rep["leaves"]):
+            lines.append(f"  leaf {k + 1} [{lf['layers'][0]} .. {lf['layers'][-1]}]: {lf['thickness_um']:.1f} um, "
+                         f"axis {lf['neutral_axis_um']:.2f} um, R {lf['inner_radius_mm']:.4g} mm, peak "
+                         f"{_f(lf.get('peak_strain_pct'), '.3f')} %, copper {_f(lf.get('peak_copper_strain_pct'), '.3f')} %")
     if "plastic" in rep:
         p = rep["plastic"]
         pna = p["neutral_axis_um"]
         pna_txt = f"{pna:.2f}" if not isinstance(pna, list) else ", ".join(f"{v:.2f}" for v in pna)
         lines.append(f"elastic-perfectly-plastic copper: neutral axis {pna_txt} um, peak copper strain "
                      + (f"{p['peak_copper_strain_pct']:+.3f} % in {p['peak_copper_layer']}"
-                        if p["peak_copper_layer"] is not None else "-"))
+                        if p["peak_copper_layer"] is not None else "-")
+                     + (f" (moves the peak {p['peak_shift_pct']:.1f} %, the axis {p['axis_shift_pct']:.1f} % of its "
+                        f"leaf; warning above {100 * PLASTIC_SHIFT:g} %)" if "peak_shift_pct" in p else ""))
+    if rep.get("material_limits"):
+        lines.append("material limits:")
+        for m in rep["material_limits"]:
+            state = "ok" if m["ok"] else "OVER"
+            if m["check"] == "strain":
+                lines.append(f"  {state:<4} {m['layer'][:34]:<34} strain {m['value_pct']:.3f} % of {m['limit_pct']:.3f} % "
+                             f"({m['basis']})")
+            elif m["check"] == "min_radius":
+                lines.append(f"  {state:<4} {m['layer'][:34]:<34} radius {m['value_mm']:.3g} mm, needs >= "
+                             f"{m['limit_mm']:.3g} mm")
+            else:
+                lines.append(f"  {state:<4} {m['check']}: {m['basis']} ({m['layer']})")
     if rep["findings"]:
         lines.append("findings:")
         for f in rep["findings"]:
@@ -105,10 +145,14 @@ def format_table(rep: dict[str, Any]) -> str:
 
 
 def run(args: argparse.Namespace) -> int:
+    for opt, value in (("--cycles", args.cycles), ("--allow-uncovered", args.allow_uncovered or None)):
+        if value is not None and args.use != "dynamic":
+            raise InputError(f"applies to dynamic use only; add --use dynamic or drop {opt}", opt)
     catalog = load_catalog()
     stackup = load_stackup(args.stackup, catalog)
     rep = bend_report(stackup, args.inner_radius_mm, inside=args.inside, motion=args.motion,
-                      plane_strain=args.plane_strain, plastic=args.plastic, use=args.use, cycles=args.cycles)
+                      plane_strain=args.plane_strain, plastic=args.plastic, use=args.use, cycles=args.cycles,
+                      elongation_fraction=args.elongation_fraction, allow_uncovered=args.allow_uncovered)
     if args.json:
         print(json.dumps(rep, indent=2, allow_nan=False))
     else:

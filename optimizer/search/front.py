@@ -17,6 +17,7 @@ from strainline.models.units import UM
 from strainline.optimizer.search.problem import CONSTRAINT_TEXT, Problem
 from strainline.optimizer.search.archive import _dominated_by, hypervolume
 from strainline.optimizer.search.engine import SearchResult
+from strainline.optimizer.search.constraints import allow_uncovered, elongation_fraction
 from strainline.optimizer.search.leaves import label as leaf_label
 from strainline.optimizer.search.columns import cover_cols
 from strainline.optimizer.search.space import Space
@@ -140,8 +141,9 @@ def build_front(problem: Problem, result: SearchResult, catalog: Any, seed: int,
         cid = f"C{j + 1:03d}"
         st = candidate_stackup(sp, x, name=f"{study.name} {cid}")
         rep = bend_report(st, study.bend.inner_radius_mm, study.bend.inside, study.bend.motion,
-                          study.bend.plane_strain, False, study.bend.use,
-                          study.limits.min_cycles if study.bend.use == "dynamic" else None)
+                          study.bend.plane_strain, None, study.bend.use,
+                          study.limits.min_cycles if study.bend.use == "dynamic" else None,
+                          elongation_fraction(study), allow_uncovered(study))
         slots = sp.slots(x.reshape(1, -1))
         sig = int(slots["signal"][0])
         row = int(ev.line_row[j])
@@ -183,8 +185,13 @@ def build_front(problem: Problem, result: SearchResult, catalog: Any, seed: int,
             },
             "method": "; ".join(methods_used(kind, geom)),
         }
+        from strainline.optimizer.search.linetable import closed_form_finding, line_model_record
+        line.update(line_model_record(tb, row))
         findings = list(rep["findings"])
-        for note in method_findings(kind, geom):
+        cf_note = closed_form_finding(tb, row)
+        if cf_note:
+            findings.append(_finding("line-method", "info", cf_note, "strainline's 2-D field solver on this candidate's layers"))
+        for note in ([] if cf_note else method_findings(kind, geom)):
             findings.append(_finding("line-method", "info", note, "closed form against a converged 2-D field solution (strainline line --field-solve)"))
         for note in range_findings(kind, geom):
             findings.append(_finding("line-range", "warning", note, "stated validity range of the equation"))
@@ -237,7 +244,13 @@ def build_front(problem: Problem, result: SearchResult, catalog: Any, seed: int,
             "plane_strain": study.bend.plane_strain,
             "strain_convention": rep.get("strain_convention"),
             "min_radius_mm": _num(rep.get("min_radius_mm")),
+            "leaves": rep["leaves"],
+            "material_limits": rep["material_limits"],
         }
+        if "plastic" in rep:
+            p = rep["plastic"]
+            bend["plastic"] = {k: p[k] for k in ("neutral_axis_um", "peak_copper_strain_pct", "peak_copper_layer",
+                                                 "peak_shift_pct", "axis_shift_pct") if k in p}
         candidates.append({
             "id": cid,
             "objectives": objectives,
@@ -258,6 +271,7 @@ def build_front(problem: Problem, result: SearchResult, catalog: Any, seed: int,
         "seconds": round(result.seconds, 3),
         "objectives": keys,
         "constraints": list(problem.constraint_names),
+        **{k: v for k, v in getattr(result, "info", {}).items()},   # rate, workers, generations ... (engine)
     }
     if len(F):
         ideal, nadir = F.min(axis=0), F.max(axis=0)
