@@ -342,8 +342,9 @@ def build_study(data: Any, catalog: Any, file: str = "", folder: Path | None = N
             raise err("stack.signal_layer", f"{st.signal_layer} cannot carry a {kind} line; it must be "
                       f"{'an inner' if inner else 'an outer'} copper layer, one of [{', '.join(map(str, allowed))}]")
     for i, name in enumerate(st.dielectric):
-        if catalog.dielectrics[name].glass_reinforced:
-            raise err(f"stack.dielectric[{i}]", f"{name!r} is glass-reinforced and does not belong in a bend region")
+        if catalog.dielectrics[name].glass_reinforced and bd.use == "dynamic":
+            raise err(f"stack.dielectric[{i}]", f"{name!r} is glass-reinforced and does not belong in a dynamic bend "
+                                                "(an install bend allows it above about 10 x thickness)")
     dth = _per_material("stack.dielectric_thickness_um", st.dielectric_thickness_um, st.dielectric, where)
     ath = _per_material("stack.adhesive_thickness_um", st.adhesive_thickness_um,
                         [a for a in st.adhesive if a != S.NONE], where)
