@@ -130,7 +130,7 @@ def search(evaluate: Evaluator, sizes: np.ndarray, n_obj: int, n_con: int, metho
            budget: int = 20000, seed: int = 1, pop_size: int = 100, progress: Any = None,
            evaluate_exhaustive: Evaluator | None = None, workers: int | None = None,
            dask_address: str | None = None, time_limit_s: float = AUTO_TIME_LIMIT_S, force: bool = False,
-           notify: Callable[[str], None] | None = None) -> SearchResult:
+           notify: Callable[[str], None] | None = None, space: Any = None) -> SearchResult:
     """Run the chosen search method.
 
     ``auto`` and ``exhaustive`` first enumerate the first chunks for :data:`PROBE_S` seconds (kept:
@@ -141,7 +141,8 @@ def search(evaluate: Evaluator, sizes: np.ndarray, n_obj: int, n_con: int, metho
 
     ``evaluate_exhaustive`` (optional) is used by the enumeration instead of ``evaluate``; it may
     skip expensive work for candidates a cheap constraint already rules out, as long as it never
-    reports such a candidate feasible. It must pickle for more than one worker.
+    reports such a candidate feasible. It must pickle for more than one worker. ``space`` (the
+    study's :class:`Space`) tells the evolutionary operators which choices are ordered.
     """
     from strainline.optimizer.errors import StudyError
 
@@ -182,7 +183,9 @@ def search(evaluate: Evaluator, sizes: np.ndarray, n_obj: int, n_con: int, metho
         if notify is not None:
             notify(f"auto: an exhaustive run of {size:,} candidates is projected at {_fmt_s(projected)} "
                    f"(limit {_fmt_s(time_limit_s)}); running the evolutionary search")
-        res = evolutionary(evaluate, sizes, n_obj, n_con, budget, seed, pop_size=pop_size, progress=progress)
+        res = evolutionary(evaluate, sizes, n_obj, n_con, budget, seed, pop_size=pop_size, progress=progress,
+                           space=space)
         res.info.update(info, auto="evolutionary: projected exhaustive time over the limit")
         return res
-    return evolutionary(evaluate, sizes, n_obj, n_con, budget, seed, pop_size=pop_size, progress=progress)
+    return evolutionary(evaluate, sizes, n_obj, n_con, budget, seed, pop_size=pop_size, progress=progress,
+                        space=space)
