@@ -53,6 +53,10 @@ class LineLoss:
     thin_conductor : ndarray of bool
         True where the copper is thinner than 3 skin depths (skin-effect formula not valid;
         the loss is then the larger of the skin-effect and DC-resistance values).
+    wheeler_failed : ndarray of bool
+        True where the closed-form impedance does not rise as the metal walls recede (outside the
+        equations' range), so Wheeler's rule would give a zero or negative loss; the
+        parallel-plate estimate R_s/(Z_0 w) is used there instead. Loss is never negative.
     """
 
     conductor_db_per_m: np.ndarray
@@ -61,6 +65,7 @@ class LineLoss:
     skin_depth_m: np.ndarray
     roughness_factor: np.ndarray
     thin_conductor: np.ndarray
+    wheeler_failed: np.ndarray | None = None
 
     @property
     def conductor_db_per_inch(self) -> np.ndarray:
@@ -243,6 +248,10 @@ def line_loss(kind: str, geom: LineGeometry, result: LineResult, freq_hz, df, ro
         dz_dn = (zp - zm) / (2.0 * dn)
         k_r = roughness_factor(roughness_rq_m, delta, roughness_model)
         alpha_c = rs / (2.0 * z_mode * ETA0) * dz_dn * k_r
+        # the impedance of a line rises as its walls recede (more inductance, Wheeler [W42]); where the
+        # closed form does not, fall back to the parallel-plate strip loss R_s/(Z0 w) [P], never < 0
+        failed = ~(dz_dn > 0) & np.isfinite(z_mode) & (z_mode > 0)
+        alpha_c = np.where(failed, rs * k_r / (z_mode * g.width_m), alpha_c)
         thin = g.thickness_m < 3.0 * delta
         alpha_dc = 1.0 / (sigma * g.width_m * np.where(g.thickness_m > 0, g.thickness_m, np.nan)) / (2.0 * z_mode)
         alpha_c = np.where(thin & np.isfinite(alpha_dc), np.maximum(alpha_c, alpha_dc), alpha_c)
@@ -254,10 +263,12 @@ def line_loss(kind: str, geom: LineGeometry, result: LineResult, freq_hz, df, ro
             tan_eff = p["substrate"] * df + p["cover"] * df_cover
         lam0 = C0 / f
         alpha_d = np.pi * np.sqrt(eps) * tan_eff / lam0
+        alpha_d = np.where(alpha_d < 0, 0.0, alpha_d)      # energy fractions are >= 0: no negative loss
     cond = NP_TO_DB * alpha_c
     diel = NP_TO_DB * alpha_d
     return LineLoss(conductor_db_per_m=cond, dielectric_db_per_m=diel, total_db_per_m=cond + diel,
-                    skin_depth_m=delta, roughness_factor=k_r, thin_conductor=np.asarray(thin))
+                    skin_depth_m=delta, roughness_factor=k_r, thin_conductor=np.asarray(thin),
+                    wheeler_failed=np.asarray(failed))
 
 
 def delay_ps_per_mm(eps_eff) -> np.ndarray:

@@ -33,6 +33,7 @@ from strainline.models.lines import (
 )
 from strainline.models.loss import LineLoss, delay_ps_per_mm, line_loss
 from strainline.models.units import GHZ, SIGMA_COPPER, UM
+from strainline.optimizer.cli.numbers import check
 from strainline.optimizer.errors import InputError, not_one_of
 
 #: Width search range for --target-ohm, um.
@@ -97,19 +98,6 @@ def register(subparsers) -> argparse.ArgumentParser:
     return p
 
 
-def _check(value: float | None, option: str, low: float, *, low_ok: bool, high: float | None = None,
-           what: str) -> None:
-    """Raise an InputError naming the option, the value and the allowed range."""
-    if value is None:
-        return
-    bad = not math.isfinite(value) or (value < low if low_ok else value <= low)
-    if high is not None:
-        bad = bad or value >= high
-    if bad:
-        rng = f"{'>=' if low_ok else '>'} {low:g}" + (f" and < {high:g}" if high is not None else "")
-        raise InputError(f"{value:g} is out of range; {what} must be {rng}", option)
-
-
 def geometry_from_args(args: argparse.Namespace) -> tuple[LineGeometry, list[str]]:
     """Validate the options and build the (one-row) ``LineGeometry`` in SI units.
 
@@ -117,19 +105,9 @@ def geometry_from_args(args: argparse.Namespace) -> tuple[LineGeometry, list[str
     options that do not apply to this line type. Raises :class:`InputError` for bad input.
     """
     kind = args.kind
-    _check(args.height_um, "--height-um", 0.0, low_ok=False, what="the dielectric height in um")
-    _check(args.thickness_um, "--thickness-um", 0.0, low_ok=True, what="the copper thickness in um")
-    _check(args.er, "--er", 1.0, low_ok=True, what="the relative permittivity")
-    _check(args.width_um, "--width-um", 0.0, low_ok=False, what="the trace width in um")
-    _check(args.gap_um, "--gap-um", 0.0, low_ok=False, what="the gap in um")
-    _check(args.height_top_um, "--height-top-um", 0.0, low_ok=False, what="the dielectric height above in um")
-    _check(args.er_top, "--er-top", 1.0, low_ok=True, what="the relative permittivity above")
-    _check(args.cover_um, "--cover-um", 0.0, low_ok=True, what="the cover thickness in um")
-    _check(args.cover_er, "--cover-er", 1.0, low_ok=True, what="the cover relative permittivity")
-    _check(args.freq_ghz, "--freq-ghz", 0.0, low_ok=False, what="the frequency in GHz")
-    _check(args.df, "--df", 0.0, low_ok=True, high=1.0, what="the loss tangent")
-    _check(args.roughness_um, "--roughness-um", 0.0, low_ok=True, what="the RMS roughness in um")
-    _check(args.target_ohm, "--target-ohm", 0.0, low_ok=False, what="the target impedance in ohm")
+    for option in ("--height-um", "--thickness-um", "--er", "--width-um", "--gap-um", "--height-top-um", "--er-top",
+                   "--cover-um", "--cover-er", "--freq-ghz", "--df", "--roughness-um", "--target-ohm"):
+        check(getattr(args, option[2:].replace("-", "_")), option)
     if args.width_um is None and args.target_ohm is None:
         raise InputError("give the trace width (--width-um W, > 0 um) or a target impedance "
                          "(--target-ohm Z, > 0 ohm) to solve for it", "--width-um")
@@ -143,17 +121,8 @@ def geometry_from_args(args: argparse.Namespace) -> tuple[LineGeometry, list[str
     if cover_given and args.cover_er is None and kind in _COVERABLE:
         raise InputError("a cover needs its relative permittivity: --cover-er ERC (>= 1)", "--cover-er")
 
+    not_applicable(args)
     ignored: list[str] = []
-    if kind not in GAP_KINDS and args.gap_um is not None:
-        ignored.append(f"--gap-um ignored: {kind} has no gap")
-    if kind not in _STRIPLINES:
-        for opt, val in (("--height-top-um", args.height_top_um), ("--er-top", args.er_top)):
-            if val is not None:
-                ignored.append(f"{opt} ignored: only striplines have a dielectric above the trace")
-    if kind not in _COVERABLE and cover_given:
-        ignored.append("--cover-um ignored: a stripline's dielectric above the trace is --height-top-um/--er-top")
-    if kind != "coplanar" and args.no_bottom_ground:
-        ignored.append("--no-bottom-ground ignored: only coplanar lines may omit the bottom ground")
 
     stripline_like = kind in _STRIPLINES
     geom = LineGeometry(
@@ -170,6 +139,53 @@ def geometry_from_args(args: argparse.Namespace) -> tuple[LineGeometry, list[str
         bottom_ground=not args.no_bottom_ground,
     )
     return geom, ignored
+
+
+def not_applicable(args: argparse.Namespace) -> None:
+    """Refuse an option the chosen line type does not use (one line naming it, exit 2)."""
+    kind = args.kind
+    cover_given = args.cover_um is not None and args.cover_um > 0
+    if kind not in GAP_KINDS and args.gap_um is not None:
+        raise InputError(f"{kind} has no gap; --gap-um applies to {', '.join(GAP_KINDS)}", "--gap-um")
+    if kind not in _STRIPLINES:
+        for opt, val in (("--height-top-um", args.height_top_um), ("--er-top", args.er_top)):
+            if val is not None:
+                raise InputError(f"{kind} has no dielectric above the trace; {opt} applies to "
+                                 f"{', '.join(_STRIPLINES)} (a cover is --cover-um/--cover-er)", opt)
+    if kind not in _COVERABLE and (cover_given or args.cover_er is not None):
+        opt = "--cover-um" if cover_given else "--cover-er"
+        raise InputError(f"{kind} has no cover; the dielectric above a stripline is --height-top-um/--er-top", opt)
+    if kind != "coplanar" and args.no_bottom_ground:
+        raise InputError(f"{kind} always has its ground plane below; --no-bottom-ground applies to coplanar",
+                         "--no-bottom-ground")
+    if args.freq_ghz is None:
+        for opt, val in (("--df", args.df), ("--roughness-um", args.roughness_um)):
+            if val is not None:
+                raise InputError("the loss needs a frequency: give --freq-ghz F as well", opt)
+
+
+_RATIO_OPTIONS = {"w": "--width-um", "h": "--height-um", "s": "--gap-um", "t": "--thickness-um", "er": "--er"}
+
+
+def no_valid_result(kind: str, geom: LineGeometry, result: LineResult) -> InputError:
+    """The error for a geometry the closed forms give no finite result for: the ratios out of
+    range (from :func:`range_findings`) and the options that set them."""
+    import re
+
+    found = [f for f in range_findings(kind, geom, result) if "outside" in f or "above" in f or "below" in f]
+    opts: list[str] = []
+    for f in found:
+        for token in re.findall(r"\b(w|h|s|t|er)(?:/(w|h|s|t))?\b", f):
+            for t in token:
+                if t and _RATIO_OPTIONS[t] not in opts:
+                    opts.append(_RATIO_OPTIONS[t])
+    why = "; ".join(found) if found else "the geometry is degenerate"
+    fix = f"; change {', '.join(opts)}" if opts else ""
+    return InputError(f"the closed-form equations give no valid result for this geometry ({why}){fix}", kind)
+
+
+def _finite(*arrays: Any) -> bool:
+    return all(a is None or bool(np.all(np.isfinite(np.asarray(a, float)))) for a in arrays)
 
 
 def solve_or_evaluate(kind: str, geom: LineGeometry, target_ohm: float | None,
@@ -286,8 +302,10 @@ def run(args: argparse.Namespace) -> int:
     geom, findings = geometry_from_args(args)
     freq_hz = None if args.freq_ghz is None else args.freq_ghz * GHZ
     geom, result = solve_or_evaluate(kind, geom, args.target_ohm, freq_hz)
-    if not np.all(np.isfinite(result.z0_ohm)):
-        raise InputError("the closed-form equations give no valid result for this geometry", kind)
+    pair = kind in PAIR_KINDS
+    if not _finite(result.z0_ohm, result.eps_eff, *((result.z_odd_ohm, result.z_even_ohm, result.z_diff_ohm,
+                                                      result.eps_eff_odd, result.eps_eff_even) if pair else ())):
+        raise no_valid_result(kind, geom, result)
     loss = None
     if freq_hz is not None:
         rq = 0.0 if args.roughness_um is None else args.roughness_um * UM
@@ -300,6 +318,12 @@ def run(args: argparse.Namespace) -> int:
             findings.append("copper thinner than 3 skin depths: skin-effect conductor loss not valid; "
                             "the DC resistance is used as a floor")
         findings.append("conductor loss uses annealed-copper conductivity 5.80e7 S/m (IEC 60028)")
+        if loss.wheeler_failed is not None and bool(np.asarray(loss.wheeler_failed).reshape(-1)[0]):
+            findings.append("conductor loss: the closed-form impedance does not rise as the walls recede here "
+                            "(outside its range), so Wheeler's rule does not hold; the parallel-plate estimate "
+                            "Rs/(Z0 w) is used (Pozar)")
+        if not _finite(loss.conductor_db_per_m, loss.dielectric_db_per_m):
+            raise no_valid_result(kind, geom, result)
     d = build_result(args, geom, result, loss, findings)
     if args.field_solve:
         from strainline.optimizer.search.verify import field_for_line, field_text

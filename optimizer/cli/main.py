@@ -55,7 +55,7 @@ class _Parser(argparse.ArgumentParser):
     """argparse that raises instead of printing usage and exiting, so errors stay one line."""
 
     def error(self, message: str) -> None:  # type: ignore[override]
-        text, field = _our_words(message)
+        text, field = _our_words(message.replace("\r", "\\r").replace("\n", "\\n"))
         raise InputError(text, f"{self.prog} {field}" if field else self.prog)
 
 
