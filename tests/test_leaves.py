@@ -221,3 +221,20 @@ def test_glass_laminate_in_an_install_bend_above_the_gentle_ratio_only():
     with pytest.raises(Exception, match="glass"):
         d["bend"] = {"inner_radius_mm": 2.0, "use": "dynamic", "cycles": 100}
         _problem(d)
+
+
+@pytest.mark.parametrize("over", [{}, {"leaves": "auto", "inside": "top"}])
+def test_cover_column_equals_a_scan_of_the_decoded_layers(over):
+    # [B] a copper face is bare when only air or the outside lies between it and its leaf surface;
+    # the search reads it from the cover choices, checked here against a scan of the decoded columns
+    from strainline.optimizer.search.constraints import bare_faces
+
+    study = _studies()[-3 if over else -4]
+    sp = build_space(study, CAT)
+    pb = build_problem(sp, CAT)
+    x = sp.index_to_x(np.random.default_rng(5).integers(0, sp.size, 3000))
+    d = sp.decode(x)
+    ref = np.where(bare_faces(sp, d.thickness_m, d.is_air) > 0, 1.0, -1.0)
+    got = pb.evaluate(x).G[:, pb.constraint_names.index("cover")]
+    np.testing.assert_array_equal(got, ref)
+    assert (ref > 0).any() and (ref < 0).any()

@@ -26,6 +26,7 @@ from typing import Any
 import numpy as np
 
 from strainline.models.units import MM
+from strainline.optimizer.search.leaves import leaf_state
 from strainline.optimizer.search.mechanics import _plan
 
 #: Inner radius over thickness for a one-time bend (common practice, no source); the gentle-radius
@@ -96,8 +97,20 @@ def bare_faces(space: Any, t: np.ndarray, is_air: np.ndarray) -> np.ndarray:
     return count
 
 
-def material_constraints(problem: Any, slots: dict[str, np.ndarray], strain_top: np.ndarray,
-                         strain_bottom: np.ndarray, total_m: np.ndarray) -> dict[str, np.ndarray]:
+def strain_ratio(space: Any, slots: dict[str, np.ndarray], strain_top: np.ndarray,
+                 strain_bottom: np.ndarray) -> np.ndarray:
+    """Largest ``|strain| / elongation at break`` over every dielectric face (n,), from the layer
+    strains (n, L) and the decoded materials (the general path)."""
+    a = space.arr
+    _, mat, _, _ = _plan(space, slots)
+    m_safe = np.where(mat >= 0, mat, 0)
+    inv = np.where(mat >= 0, 1.0 / a["mat_elong"][m_safe], 0.0)
+    worst = np.maximum(np.abs(strain_top), np.abs(strain_bottom))
+    return np.max(worst * inv, axis=1)
+
+
+def material_constraints(problem: Any, slots: dict[str, np.ndarray], total_m: np.ndarray,
+                         ratio: np.ndarray) -> dict[str, np.ndarray]:
     """The material-limit columns of a batch (see the module docstring).
 
     Parameters
@@ -105,39 +118,46 @@ def material_constraints(problem: Any, slots: dict[str, np.ndarray], strain_top:
     problem : Problem
     slots : dict
         Per-slot option indices.
-    strain_top, strain_bottom : ndarray, (n, L)
-        Face strains of every column (fraction).
     total_m : ndarray, (n,)
         Total stack thickness, m.
+    ratio : ndarray, (n,)
+        Largest ``|strain| / elongation at break`` over the dielectric faces (:func:`strain_ratio`,
+        or the fast path's group form).
     """
     sp = problem.space
-    study, a = sp.study, sp.arr
+    study, b = sp.study, sp.blocks
     want = [c for c in problem.constraint_names if c in TEXT]
-    if not want:
-        return {}
-    t, mat, is_air, ok = _plan(sp, slots)
     out: dict[str, np.ndarray] = {}
+    if not want:
+        return out
     r = study.bend.inner_radius_mm * MM
+    ct, cb = slots["cover_top"], slots["cover_bot"]
+    state = leaf_state(sp, slots) if sp.unbonded else None
     if "material_strain" in want:
-        m_safe = np.where(mat >= 0, mat, 0)
-        inv = np.where(mat >= 0, 1.0 / (a["mat_elong"][m_safe] * elongation_fraction(study)), 0.0)
-        worst = np.maximum(np.abs(strain_top), np.abs(strain_bottom))
-        out["material_strain"] = np.max(np.where(inv > 0, worst * inv, 0.0), axis=1) - 1.0
+        out["material_strain"] = ratio / elongation_fraction(study) - 1.0
     if "cover_radius" in want:
         rmin = _cover_rmin(sp)
-        out["cover_radius"] = np.maximum(rmin[slots["cover_top"]], rmin[slots["cover_bot"]]) / r - 1.0
+        out["cover_radius"] = np.maximum(rmin[ct], rmin[cb]) / r - 1.0
     if "cover" in want:
-        out["cover"] = np.where(bare_faces(sp, t, is_air) > 0, 1.0, -1.0)
+        # gaps always hold a film, so only a face under a missing cover can be bare: the outer faces,
+        # and in an unbonded region the leaf faces that border air
+        bare = b["cov_bare"][ct] | b["cov_bare"][cb]
+        if state is not None:
+            bnd, up, _ = state
+            bare = bare | ((bnd & up).any(axis=1) & b["cov_bare"][ct]) | ((bnd & ~up).any(axis=1) & b["cov_bare"][cb])
+        out["cover"] = np.where(bare, 1.0, -1.0)
     if "glass" in want:
-        m_safe = np.where(mat >= 0, mat, 0)
-        has = ((mat >= 0) & a["mat_glass"][m_safe] & (t > 0)).any(axis=1)
+        n_adh = len(sp.adh_opts)
+        has = b["cov_glass"][ct] | b["cov_glass"][cb]
+        for g in range(sp.n_cu - 1):
+            has = has | b["gap_glass"][(slots["film"][:, g] * n_adh + slots["adh"][:, g]) * 3 + slots["place"][:, g]]
         if study.bend.use == "dynamic":
             out["glass"] = np.where(has, 1.0, -1.0)
         else:
             out["glass"] = np.where(has, GLASS_INSTALL_RATIO * total_m / r - 1.0, -1.0)
     if "leaves" in want:
-        out["leaves"] = np.where(ok, -1.0, 1.0)
+        out["leaves"] = np.where(state[2], -1.0, 1.0)
     return out
 
 
-__all__ = ["material_constraints", "names", "bare_faces", "TEXT", "GLASS_INSTALL_RATIO"]
+__all__ = ["material_constraints", "strain_ratio", "names", "bare_faces", "TEXT", "GLASS_INSTALL_RATIO"]

@@ -47,6 +47,14 @@ def fast_tables(space) -> dict:
                         "gapD": (b["gap_t"][:, 1:], b["gap_E"][:, 1:])}.items():
         out[key + "_T"], out[key + "_S"], out[key + "_M"] = block_sums(t, e)
     out["gap_tup"], out["gap_tdn"] = b["gap_t"][:, 0].copy(), b["gap_t"][:, 2].copy()
+    # per column of each group: bottom and top height above the group's bottom face, and the inverse
+    # elongation at break (0 for empty columns), for the dielectric strain limit
+    for key, t, inv in (("ct", b["cov_t"], b["cov_inv"]), ("cb", b["cov_t_rev"], b["cov_inv"][:, ::-1]),
+                        ("gap", b["gap_t"], b["gap_inv"])):
+        below = t.sum(axis=1)[:, None] - np.cumsum(t, axis=1)
+        out[key + "_yb"] = np.ascontiguousarray(below.T)
+        out[key + "_yt"] = np.ascontiguousarray((below + t).T)
+        out[key + "_inv"] = np.ascontiguousarray(np.where(t > 0, inv, 0.0).T)
     out["stiff"] = bool(np.all(b["cu_t"] > 0) and np.all(b["cu_E"] > 0)
                         and space.study.stack.signal_coverage > 0)
     # unbonded leaves: every leaf holds a copper layer, stiff when every coverage option is > 0
@@ -54,7 +62,7 @@ def fast_tables(space) -> dict:
     return out
 
 
-def copper_strains(problem, slots: dict[str, np.ndarray], axis: bool = False):
+def copper_strains(problem, slots: dict[str, np.ndarray], axis: bool = False, dielectric: bool = False):
     """Total thickness and peak strain of every copper layer, from the slots (bonded or unbonded).
 
     Parameters
@@ -64,6 +72,9 @@ def copper_strains(problem, slots: dict[str, np.ndarray], axis: bool = False):
         Per-slot option indices (:meth:`Space.slots`).
     axis : bool
         Also return the neutral-axis height of every copper layer's leaf (n, N), m.
+    dielectric : bool
+        Bonded only: also return the largest ``|strain| / elongation at break`` over every dielectric
+        face (n,), from the same axis and per-column tables.
 
     Returns
     -------
@@ -75,16 +86,20 @@ def copper_strains(problem, slots: dict[str, np.ndarray], axis: bool = False):
     n = slots["signal"].shape[0]
     N = problem.space.n_cu
     if n <= BLOCK:
-        out = _strain_rows(problem, slots)
-        return out if axis else out[:2]
-    total, peak, yna = np.empty(n), np.empty((N, n)), np.empty((N, n))
-    for a in range(0, n, BLOCK):            # row blocks whose temporaries stay in cache
-        sub = {k: v[a:a + BLOCK] for k, v in slots.items()}
-        total[a:a + BLOCK], peak[:, a:a + BLOCK], yna[:, a:a + BLOCK] = _strain_rows(problem, sub, True)
-    return (total, peak.T, yna.T) if axis else (total, peak.T)
+        out = _strain_rows(problem, slots, dielectric=dielectric)
+    else:
+        total, peak, yna, diel = np.empty(n), np.empty((N, n)), np.empty((N, n)), np.empty(n)
+        for a in range(0, n, BLOCK):            # row blocks whose temporaries stay in cache
+            sub = {k: v[a:a + BLOCK] for k, v in slots.items()}
+            o = _strain_rows(problem, sub, True, dielectric)
+            total[a:a + BLOCK], peak[:, a:a + BLOCK], yna[:, a:a + BLOCK] = o[:3]
+            if dielectric:
+                diel[a:a + BLOCK] = o[3]
+        out = (total, peak.T, yna.T, diel)
+    return out[:2] + ((out[2],) if axis else ()) + ((out[3],) if dielectric else ())
 
 
-def _strain_rows(problem, slots: dict[str, np.ndarray], transposed: bool = False):
+def _strain_rows(problem, slots: dict[str, np.ndarray], transposed: bool = False, dielectric: bool = False):
     sp, f = problem.space, problem.fast
     b = sp.blocks
     N = sp.n_cu
@@ -107,6 +122,7 @@ def _strain_rows(problem, slots: dict[str, np.ndarray], transposed: bool = False
         over = [bnd[:, g] & film_up[:, g] for g in range(N - 1)]      # top cover build on the lower leaf
         under = [bnd[:, g] & ~film_up[:, g] for g in range(N - 1)]    # bottom cover build on the upper leaf
         closed: list = [None] * (N - 1)          # (S, M) of the leaf ending below boundary g
+    groups = [("cb", cb, 0.0)]                 # (table, option code, bottom height) of every dielectric group
     # bottom up: running height y, stiffness S and first moment M
     y = take(f["cb_T"], cb)
     S = take(f["cb_S"], cb)
@@ -152,11 +168,13 @@ def _strain_rows(problem, slots: dict[str, np.ndarray], transposed: bool = False
             M = np.where(bd, uS * y2 + uM, M + sg * y + take(f["gap_M"], g))
             y = np.where(bd, y2 + uT, y + take(f["gap_T"], g))
         else:
+            groups.append(("gap", g, y.copy()))
             sg = take(f["gap_S"], g)
             S += sg
             M += sg * y
             M += take(f["gap_M"], g)
             y += take(f["gap_T"], g)
+    groups.append(("ct", ct, y.copy()))
     sg = take(f["ct_S"], ct)
     S += sg
     M += sg * y
@@ -195,4 +213,17 @@ def _strain_rows(problem, slots: dict[str, np.ndarray], transposed: bool = False
         np.maximum(a, c, out=out[i])
         out[i] *= absk
     axes = np.stack([np.broadcast_to(v, (n,)) for v in yna_i])
-    return total, (out if transposed else out.T), (axes if transposed else axes.T)
+    res = (total, (out if transposed else out.T), (axes if transposed else axes.T))
+    if not dielectric:
+        return res
+    if unbonded:
+        raise ValueError("the dielectric strain of the fast path is for bonded regions")
+    # max over dielectric faces of |y - y_NA| / elongation: per column max(y_t - y_NA, y_NA - y_b) / e_b
+    worst = np.zeros(n)
+    for key, code, ybot in groups:
+        a = ybot - yna_i[0]
+        yb, yt, inv = f[key + "_yb"], f[key + "_yt"], f[key + "_inv"]
+        for c in range(yb.shape[0]):
+            d = np.maximum(a + take(yt[c], code), -(a + take(yb[c], code)))
+            np.maximum(worst, d * take(inv[c], code), out=worst)
+    return res + (worst * absk_i[0],)

@@ -252,7 +252,20 @@ def blocks(sp: Any) -> dict[str, np.ndarray]:
     de = np.concatenate([cov_fE, np.where(t_up > 0, Ea, Ef)])
     da = np.concatenate([cov_fl, np.where(t_up > 0, flows(gma), flows(gmf))])
     fill = np.where(ua[:, None], ue[:, None], np.where(da[None, :], de[None, :], 0.0))
+
+    def inv_elong(m: np.ndarray, t: np.ndarray) -> np.ndarray:
+        ms = np.where(m >= 0, m, 0)
+        return np.where((m >= 0) & (t > 0), 1.0 / a["mat_elong"][ms], 0.0)
+
+    def glass(m: np.ndarray, t: np.ndarray) -> np.ndarray:
+        return (m >= 0) & (t > 0) & a["mat_glass"][np.where(m >= 0, m, 0)]
+
     return {
+        "cov_inv": np.stack([inv_elong(mf, tf), inv_elong(ma, ta)], axis=1),
+        "gap_inv": np.stack([inv_elong(gma, t_up), inv_elong(gmf, gtf), inv_elong(gma, t_dn)], axis=1),
+        "cov_glass": glass(mf, tf) | glass(ma, ta),
+        "gap_glass": glass(gmf, gtf) | glass(gma, gta),
+        "cov_bare": (tf <= 0) & (ta <= 0),
         "fill": np.ascontiguousarray(np.broadcast_to(fill, (len(ue), len(de)))),
         "cov_t_rev": cov_t[:, ::-1].copy(), "cov_E_rev": cov_E[:, ::-1].copy(),
         "cov_tT": np.ascontiguousarray(cov_t.T), "cov_ET": np.ascontiguousarray(cov_E.T),

@@ -38,7 +38,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from strainline.models.bending import bend_strains, layer_heights
+from strainline.models.bending import bend_strains
 from strainline.models.fatigue import engelmaier_cycles, engelmaier_strain_range, strain_range
 from strainline.models.units import MM, UM
 from strainline.optimizer.search import constraints as material
@@ -206,22 +206,15 @@ class Problem:
         n = x.shape[0]
         if self.fast is not None and not sp.unbonded:
             slots = sp.slots(x) if slots is None else slots
-            total, cu_peak, yna = self.copper_strains(slots, axis=True)
-            # face strains of every layer about the one axis (exact strain, as bend_strains)
-            t = sp.mechanics(x, slots)[0]
-            yb, yt = layer_heights(t)
-            r, ib = study.bend.inner_radius_mm * MM, study.bend.inside == "bottom"
-            y0 = yna[:, :1]
-            k = 1.0 / (r + y0) if ib else -1.0 / (r + total[:, None] - y0)
-            s_top, s_bot = k * (yt - y0), k * (yb - y0)
+            total, cu_peak, ratio = self.copper_strains(slots, dielectric=True)
         else:
             t, e, leaf, slots = sp.mechanics(x, slots)
             bs = self.strains(t, e, leaf)
             cols = [sp.cu_col(i) for i in range(sp.n_cu)]
             cu_peak = np.maximum(np.abs(bs.strain_top[:, cols]), np.abs(bs.strain_bottom[:, cols]))  # (n, N)
             total = t.sum(axis=1)
-            s_top, s_bot = bs.strain_top, bs.strain_bottom
-        mat_g = material.material_constraints(self, slots, s_top, s_bot, total)
+            ratio = material.strain_ratio(sp, slots, bs.strain_top, bs.strain_bottom)
+        mat_g = material.material_constraints(self, slots, total, ratio)
         peak = cu_peak.max(axis=1)
         signal, cu_opt = slots["signal"], slots["cu"]
         if len(sp.sig_opts) == 1:
@@ -290,10 +283,10 @@ class Problem:
             F[feas] = quantize(F[feas], self.resolution)
         return Evaluation(F, G, peak, sig, total, row, cycles)
 
-    def copper_strains(self, slots: dict[str, np.ndarray], axis: bool = False):
+    def copper_strains(self, slots: dict[str, np.ndarray], axis: bool = False, dielectric: bool = False):
         """Total thickness and peak strain of every copper layer from group sums
         (:func:`.faststrain.copper_strains`; equal to ``bend_strains`` on the decoded layers)."""
-        return _copper_strains(self, slots, axis)
+        return _copper_strains(self, slots, axis, dielectric)
 
     def objective_keys(self) -> list[str]:
         return [OBJECTIVE_KEYS[o] for o in self.objectives]
