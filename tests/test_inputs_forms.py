@@ -141,10 +141,21 @@ def test_allow_uncovered_and_elongation_fraction():
 
 def test_catalog_path_is_relative_to_the_study(tmp_path):
     folder = tmp_path / "project"
-    folder.mkdir()
+    (folder / "fab" / "catalog").mkdir(parents=True)
+    (folder / "fab" / "catalog" / "copper.yaml").write_text(
+        "mode: add\nfoils: {}\nweights:\n  3oz: {weight_oz: 3, thickness_um: 105, source: invented for the test}\n",
+        encoding="utf-8")
+    (folder / "fab" / "catalog" / "fabrication.yaml").write_text(
+        "mode: add\nmin_feature:\n  by_weight:\n    3oz: {trace_um: 300, space_um: 300}\n"
+        "width_tolerance:\n  by_weight_pct:\n    3oz: 25\n", encoding="utf-8")
     p = folder / "unit.yaml"
-    p.write_text(yaml.safe_dump(_study(catalog="fab/catalog"), sort_keys=False), encoding="utf-8")
-    assert load_study(p).catalog_path == folder / "fab" / "catalog"
+    p.write_text(yaml.safe_dump(_study(catalog="fab/catalog", stack={"copper_weights": ["3oz"]}), sort_keys=False),
+                 encoding="utf-8")
+    s = load_study(p)   # validated against the study's own catalog: the built-in one plus 3oz
+    assert s.catalog_path == folder / "fab" / "catalog" and s.stack.copper_weights == ("3oz",)
+    p.write_text(yaml.safe_dump(_study(catalog="nowhere"), sort_keys=False), encoding="utf-8")
+    with pytest.raises(StudyError, match=r"unit.yaml: catalog: 'nowhere' is not a catalog folder"):
+        load_study(p)
     assert "catalog: 0 must be the path" in _error(_study(catalog=0))
 
 

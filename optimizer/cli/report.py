@@ -24,6 +24,8 @@ def register(subparsers: argparse._SubParsersAction) -> argparse.ArgumentParser:
     p.add_argument("--quiet", action="store_true", help="print nothing on success")
     p.add_argument("--force", action="store_true",
                    help="rebuild even when DIR holds files that are not strainline output (they are removed)")
+    p.add_argument("--catalog", metavar="PATH", default=None,
+                   help="catalog folder to rebuild with (default: the entries front.json recorded, else built-in)")
     return p
 
 
@@ -41,9 +43,14 @@ def run(args: argparse.Namespace) -> int:
                              str(folder))
     front = load_front(folder / "front.json")          # a bad front.json is named before anything else
     check_out(folder, args.force, option="DIR")
+    catalog = None
+    if getattr(args, "catalog", None) is not None:
+        from strainline.optimizer.inputs.catalog import load_catalog
+
+        catalog = load_catalog(args.catalog)
     with Phases(quiet=args.quiet) as phases:
         phases.start("writing")
-        paths = replace_folder(folder, lambda stage: write_all(front, stage), force=args.force,
+        paths = replace_folder(folder, lambda stage: write_all(front, stage, catalog), force=args.force,
                                keep=("front.json", "front.csv"), option="DIR")
     if not args.quiet:
         n = len(front["candidates"])

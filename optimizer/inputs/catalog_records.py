@@ -122,6 +122,9 @@ class Catalog:
     weights: Mapping[str, FoilWeight]
     fabrication: Fabrication
     folder: str = field(default="<package data>", compare=False)
+    #: Where each file's entries came from: "built-in", "replaced" (the user file alone) or
+    #: "added" (the user file's entries added to the built-in ones; same names replace them).
+    origin: Mapping[str, str] = field(default_factory=dict, compare=False)
 
     def dielectric(self, name: str, field: str | None = None) -> Dielectric:
         """The dielectric ``name``; ``field`` is the caller's field path for the error."""

@@ -83,16 +83,25 @@ def load_study(path: str | Path, catalog: Any | None = None) -> Study:
     path : str or Path
         The YAML study file.
     catalog : Catalog, optional
-        Defaults to the shipped catalog.
+        The catalog to validate against (a ``--catalog`` given on the command line). By default the
+        study's own ``catalog:`` folder (relative to the study file), else the shipped catalog.
     """
-    if catalog is None:
-        from strainline.optimizer.inputs.catalog import load_catalog
-
-        catalog = load_catalog()
+    from strainline.optimizer.inputs.catalog import load_catalog
     from strainline.optimizer.inputs.yamlio import read_yaml
 
     path = Path(path)
     data = read_yaml(path, StudyError)
     if data is None:
         raise StudyError("the file is empty; a study needs at least [name, line, bend, stack]", str(path))
+    if catalog is None:
+        own = data.get("catalog") if isinstance(data, dict) else None
+        if isinstance(own, str) and own.strip():
+            folder = Path(own).expanduser()
+            folder = folder if folder.is_absolute() else path.parent / folder
+            if not folder.is_dir():
+                raise StudyError(f"{own!r} is not a catalog folder (looked for {folder}; a relative path is "
+                                 "relative to the study file)", f"{path.name}: catalog")
+            catalog = load_catalog(folder)
+        else:
+            catalog = load_catalog()
     return validate_study(data, catalog, file=path.name, folder=path.parent)

@@ -104,8 +104,15 @@ def load_front(path: str | Path) -> dict:
     return check_front(data, str(path))
 
 
-def try_catalog() -> Any | None:
-    """The shipped catalog, or None when it cannot be loaded (families are then guessed from names)."""
+def try_catalog(front: Mapping[str, Any] | None = None) -> Any | None:
+    """The catalog a front was solved with (its recorded ``catalog.entries``), else the shipped one,
+    or None when it cannot be loaded (families are then guessed from names). Recorded entries that
+    do not validate raise CatalogError naming ``front.json: catalog.entries``."""
+    recorded = front.get("catalog") if isinstance(front, Mapping) else None
+    if isinstance(recorded, Mapping) and "entries" in recorded:
+        from strainline.optimizer.inputs.catalog import catalog_from_dict
+
+        return catalog_from_dict(recorded["entries"])
     try:
         from strainline.optimizer.inputs.catalog import load_catalog
 
