@@ -101,7 +101,7 @@ STUDIES = [
                    "d: &d [*c,*c,*c,*c,*c,*c,*c,*c,*c]\ne: &e [*d,*d,*d,*d,*d,*d,*d,*d,*d]\n"
                    "f: &f [*e,*e,*e,*e,*e,*e,*e,*e,*e]\ng: &g [*f,*f,*f,*f,*f,*f,*f,*f,*f]\n"
                    "h: &h [*g,*g,*g,*g,*g,*g,*g,*g,*g]\ni: &i [*h,*h,*h,*h,*h,*h,*h,*h,*h]\n"), "YAML anchor '&a' at line 1"),
-    ("deep-flow", "name: " + "[" * 20000 + "]" * 20000 + "\n", "not valid YAML at line 1"),
+    ("deep-flow", "name: " + "[" * 20000 + "]" * 20000 + "\n", "nesting deeper than 64 levels at line 1"),
     ("deep-block", "".join("  " * i + f"k{i}:\n" for i in range(200)) + "  " * 200 + "x: 1\n", "nesting deeper than 64"),
     ("top-is-list", "- 1\n- 2\n", "study: [1, 2] must be a mapping"),
 ]

@@ -171,6 +171,8 @@ def read_yaml(
         mark = getattr(exc, "problem_mark", None)
         where = f"line {mark.line + 1}" if mark is not None else "somewhere"
         problem = getattr(exc, "problem", None) or "invalid YAML"
+        if "nesting depth" in problem:   # libyaml's own guard (1,000 flow levels) fired first
+            raise cls(f"nesting deeper than {MAX_DEPTH} levels at {where}", str(path)) from None
         raise cls(f"not valid YAML at {where}: {problem}", str(path)) from None
     except RecursionError:
         raise cls(f"nesting deeper than {MAX_DEPTH} levels", str(path)) from None
