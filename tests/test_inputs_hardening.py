@@ -173,7 +173,7 @@ def test_catalog_alias_bomb_and_duplicate_walk_are_bounded(tmp_path):
 _FUZZ_STUDY = {
     "name": "unit", "catalog": "x",
     "line": {"type": "microstrip", "target_ohm": 50, "width_range_um": [75, 400], "frequency_ghz": 2,
-             "tolerance": "10%", "nominal_error_pct": 3, "gap_um": 100},
+             "tolerance": "10%", "nominal_error_pct": 3},
     "bend": {"inner_radius_mm": 5, "use": "dynamic", "cycles": 10000, "region": "unbonded", "leaves": [[1], [2]],
              "allow_uncovered": False, "plane_strain": True, "inside": "top", "motion": "reversed"},
     "stack": {"copper_layers": 2, "copper_weights": ["1/3oz"], "dielectric": ["polyimide-film"], "symmetric": True,
