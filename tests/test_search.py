@@ -264,3 +264,59 @@ def test_progress_bar_only_on_a_terminal():
     p = Progress("solve", stream=quiet, quiet=True)
     p.update(1, 2)
     assert quiet.getvalue() == ""
+
+
+# ------------------------------------------------------------------------------------------------
+# bounds that skip blocks: the front equals the plain enumeration's (reference: the enumeration,
+# itself checked against the definition above); skipped blocks hold no feasible point
+def _same_front(a, b):
+    np.testing.assert_array_equal(a.F, b.F)
+    np.testing.assert_array_equal(a.X, b.X)
+    assert a.feasible == b.feasible
+
+
+def test_additive_bound_skips_blocks_and_keeps_the_exact_front():
+    from strainline.optimizer.search.bounds import surviving_ranges
+
+    rng = np.random.default_rng(5)
+    sizes = np.array([4, 4, 4, 4, 5, 6, 3])
+    T = [rng.random(int(s)) for s in sizes]          # an additive "thickness" per variable value
+    W = [rng.random((int(s), 3)) for s in sizes]
+
+    def ev(x):
+        t = sum(T[k][x[:, k]] for k in range(len(sizes)))
+        F = np.round(sum(W[k][x[:, k]] for k in range(len(sizes))) * 8) / 8
+        return F, np.stack([t / 3.0 - 1.0, F[:, 0] - 3.0], axis=1)
+
+    plain = exhaustive(ev, sizes, 3, chunk=512)
+    ranges, info = surviving_ranges(ev, sizes, 0)
+    assert info["skipped"] > 0 and info["block_size"] >= 256
+    bounded = exhaustive(ev, sizes, 3, chunk=512, ranges=ranges)
+    _same_front(bounded.archive, plain.archive)
+    assert bounded.evaluated + info["skipped"] == plain.evaluated
+
+
+def test_bound_refuses_a_column_that_is_not_additive():
+    from strainline.optimizer.search.bounds import surviving_ranges
+
+    sizes = np.array([8, 8, 8, 8])
+
+    def ev(x):
+        g = (x[:, 0] * x[:, 3]) / 49.0 - 0.5                # couples a fast and a slow variable
+        return x[:, :2].astype(float), g[:, None]
+    ranges, info = surviving_ranges(ev, sizes, 0)
+    assert ranges == [(0, 8**4)] and info["skipped"] == 0
+
+
+def test_study_thickness_bound_keeps_the_exact_front():
+    from strainline.optimizer.search.bounds import surviving_ranges
+    from strainline.optimizer.search.parallel import ProblemEvaluator
+
+    pb = small_problem(limits={"total_thickness_um": 130})
+    col = pb.constraint_names.index("total_thickness")
+    plain = exhaustive(ProblemEvaluator(pb), pb.space.sizes, pb.n_obj, chunk=4096)
+    ranges, info = surviving_ranges(ProblemEvaluator(pb, prune=False), pb.space.sizes, col)
+    assert info["skipped"] > 0
+    bounded = exhaustive(ProblemEvaluator(pb), pb.space.sizes, pb.n_obj, chunk=4096, ranges=ranges)
+    assert len(plain.archive.F) >= 3
+    _same_front(bounded.archive, plain.archive)

@@ -37,6 +37,8 @@ AUTO_TIME_LIMIT_S = 60.0
 REFUSE_S = 86400.0
 #: Seconds of enumeration that measure the rate before the projection.
 PROBE_S = 0.3
+#: Spaces from this size on try the block bounds first (:mod:`.bounds`).
+BOUND_MIN = 20_000_000
 #: Below this projected time (s) the enumeration stays in this process (no pool to start).
 POOL_MIN_S = 1.5
 
@@ -52,26 +54,32 @@ def _progress_fn(progress: Any, total: int, done0: int = 0) -> Callable[[int], N
     return step
 
 
-def _probe(evaluate: Evaluator, sizes: np.ndarray, n_obj: int, total: int, chunk: int,
-           progress: Any) -> tuple[Archive, int, float]:
-    """Enumerate the first chunks for :data:`PROBE_S`; return the archive, the count and the rate."""
+def _probe(evaluate: Evaluator, sizes: np.ndarray, n_obj: int, ranges: list[tuple[int, int]], chunk: int,
+           progress: Any, total: int) -> tuple[Archive, list[tuple[int, int]], int, float]:
+    """Enumerate the first chunks of ``ranges`` for :data:`PROBE_S`; return the archive, the ranges
+    left, the count done and the rate."""
     arch = Archive(n_obj, sizes.size)
     step = _ChunkDigits(sizes, chunk).chunk
     t0 = time.perf_counter()
     done = 0
-    while done < total and (time.perf_counter() - t0 < PROBE_S or done == 0):
-        b = min(total, done + step)
-        exhaustive_range(evaluate, sizes, n_obj, done, b, chunk, archive=arch)
-        done = b
+    left = list(ranges)
+    while left and (time.perf_counter() - t0 < PROBE_S or done == 0):
+        a, b = left[0]
+        e = min(b, (a // step + 1) * step)
+        exhaustive_range(evaluate, sizes, n_obj, a, e, chunk, archive=arch)
+        done += e - a
+        left[0] = (e, b)
+        if e >= b:
+            left.pop(0)
         if progress is not None:
             progress.update(done, total)
     dt = max(time.perf_counter() - t0, 1e-9)
-    return arch, done, done / dt
+    return arch, left, done, done / dt
 
 
 def exhaustive(evaluate: Evaluator, sizes: np.ndarray, n_obj: int, chunk: int = CHUNK, progress: Any = None,
                workers: int = 1, dask_address: str | None = None, archive: Archive | None = None,
-               start: int = 0) -> SearchResult:
+               start: int = 0, ranges: list[tuple[int, int]] | None = None) -> SearchResult:
     """Evaluate every point of the mixed-radix space ``sizes``; exact front.
 
     Parameters
@@ -92,18 +100,23 @@ def exhaustive(evaluate: Evaluator, sizes: np.ndarray, n_obj: int, chunk: int = 
         Enumerate on the Dask cluster of this scheduler instead.
     archive, start : optional
         Continue an archive that already holds the indices below ``start``.
+    ranges : list of (start, stop), optional
+        Enumerate only these (the blocks a bound leaves, :mod:`.bounds`; ``archive`` then holds
+        the rest of the feasible points).
     """
     sizes = np.asarray(sizes, np.int64)
     total = space_size(sizes)
     if total >= 2**62:
         raise ValueError("space too large to enumerate")
+    ranges = [(start, total)] if ranges is None else ranges
+    todo = sum(b - a for a, b in ranges)
     t0 = time.perf_counter()
-    arch, used = run_ranges(evaluate, sizes, n_obj, start, total, workers, dask_address,
-                            _progress_fn(progress, total, start), chunk, archive)
+    arch, used = run_ranges(evaluate, sizes, n_obj, 0, 0, workers, dask_address,
+                            _progress_fn(progress, total, total - todo), chunk, archive, ranges=ranges)
     dt = time.perf_counter() - t0
-    info = {"rate_per_s": round((total - start) / max(dt, 1e-9)), "workers": used,
+    info = {"rate_per_s": round(todo / max(dt, 1e-9)), "workers": used,
             "backend": "dask" if dask_address else ("processes" if used > 1 else "in-process")}
-    return SearchResult("exhaustive", arch, total, total, dt, "complete", info=info)
+    return SearchResult("exhaustive", arch, todo, total, dt, "complete", info=info)
 
 
 def choose_method(method: str, space_size: int, rate_per_s: float = 1e6, workers: int = 1,
@@ -130,7 +143,8 @@ def search(evaluate: Evaluator, sizes: np.ndarray, n_obj: int, n_con: int, metho
            budget: int = 20000, seed: int = 1, pop_size: int = 100, progress: Any = None,
            evaluate_exhaustive: Evaluator | None = None, workers: int | None = None,
            dask_address: str | None = None, time_limit_s: float = AUTO_TIME_LIMIT_S, force: bool = False,
-           notify: Callable[[str], None] | None = None, space: Any = None) -> SearchResult:
+           notify: Callable[[str], None] | None = None, space: Any = None,
+           bound: tuple[Evaluator, int] | None = None) -> SearchResult:
     """Run the chosen search method.
 
     ``auto`` and ``exhaustive`` first enumerate the first chunks for :data:`PROBE_S` seconds (kept:
@@ -143,6 +157,11 @@ def search(evaluate: Evaluator, sizes: np.ndarray, n_obj: int, n_con: int, metho
     skip expensive work for candidates a cheap constraint already rules out, as long as it never
     reports such a candidate feasible. It must pickle for more than one worker. ``space`` (the
     study's :class:`Space`) tells the evolutionary operators which choices are ordered.
+
+    ``bound = (evaluate, column)`` names an additive limit column (the total thickness) of an
+    evaluator that computes it for every row: spaces of at least :data:`BOUND_MIN` candidates
+    then skip the blocks whose thinnest stack is over the limit (:mod:`.bounds`; the front is
+    unchanged). ``rate_per_s`` in ``info`` counts the whole space over the wall time.
     """
     from strainline.optimizer.errors import StudyError
 
@@ -155,16 +174,24 @@ def search(evaluate: Evaluator, sizes: np.ndarray, n_obj: int, n_con: int, metho
                          "search.method")
     if method in ("auto", "exhaustive") and size < 2**62:
         t0 = time.perf_counter()
-        arch, done, rate = _probe(ev_ex, sizes, n_obj, size, CHUNK, progress)
+        ranges, binfo = [(0, size)], {}
+        if bound is not None and size >= BOUND_MIN:
+            from strainline.optimizer.search.bounds import surviving_ranges
+
+            ranges, binfo = surviving_ranges(bound[0], sizes, bound[1], seed)
+        todo = sum(b - a for a, b in ranges)
+        arch, left, done, rate = _probe(ev_ex, sizes, n_obj, ranges, CHUNK, progress, size)
         par = 1 if dask_address else workers
         if dask_address:
             from strainline.optimizer.search.parallel import cluster_threads
             par = cluster_threads(dask_address)
-        remaining = (size - done) / rate
+        remaining = (todo - done) / rate
         projected = remaining / par
         info = {"rate_per_s_probe": round(rate), "projected_s": round(projected + (done / rate), 3),
                 "time_limit_s": time_limit_s}
-        m = choose_method(method, size, rate, par, time_limit_s)
+        if binfo:
+            info["bounds"] = binfo
+        m = choose_method(method, todo, rate, par, time_limit_s)
         if m == "exhaustive":
             if projected > REFUSE_S and not force:
                 raise StudyError(
@@ -175,9 +202,10 @@ def search(evaluate: Evaluator, sizes: np.ndarray, n_obj: int, n_con: int, metho
                 notify(f"exhaustive search of {size:,} candidates: projected {_fmt_s(projected)} on {par} "
                        f"worker{'s' if par > 1 else ''} ({rate:,.0f} candidates/s each)")
             use = par if (dask_address or remaining > POOL_MIN_S) else 1
-            res = exhaustive(ev_ex, sizes, n_obj, progress=progress, workers=use if not dask_address else 1,
-                             dask_address=dask_address, archive=arch, start=done)
+            res = exhaustive(ev_ex, sizes, n_obj, progress=progress, workers=use, dask_address=dask_address,
+                             archive=arch, ranges=left)
             res.seconds = time.perf_counter() - t0
+            res.evaluated = todo + int(binfo.get("bound_evaluations", 0))
             res.info.update(info, rate_per_s=round(size / max(res.seconds, 1e-9)))
             return res
         if notify is not None:

@@ -13,7 +13,6 @@ scattered to every Dask worker.
 from __future__ import annotations
 
 import os
-import time
 from collections.abc import Callable
 from concurrent.futures import ProcessPoolExecutor, as_completed
 from typing import Any
@@ -56,22 +55,49 @@ def _init_worker(evaluate: Any) -> None:
     _WORKER["evaluate"] = evaluate
 
 
-def _local_task(sizes: np.ndarray, n_obj: int, a: int, b: int, chunk: int) -> tuple[Archive, float]:
-    t0 = time.perf_counter()
-    arch = exhaustive_range(_WORKER["evaluate"], sizes, n_obj, a, b, chunk)
-    return arch, time.perf_counter() - t0
+def _do_task(evaluate: Any, sizes: np.ndarray, n_obj: int, pieces: list[tuple[int, int]], chunk: int) -> Archive:
+    arch = Archive(n_obj, sizes.size)
+    for a, b in pieces:                      # increasing: the archive's order contract holds
+        exhaustive_range(evaluate, sizes, n_obj, a, b, chunk, archive=arch)
+    return arch
 
 
-def _dask_task(evaluate: Any, sizes: np.ndarray, n_obj: int, a: int, b: int, chunk: int) -> tuple[Archive, float]:
-    t0 = time.perf_counter()
-    arch = exhaustive_range(evaluate, sizes, n_obj, a, b, chunk)
-    return arch, time.perf_counter() - t0
+def _local_task(sizes: np.ndarray, n_obj: int, pieces: list[tuple[int, int]], chunk: int) -> Archive:
+    return _do_task(_WORKER["evaluate"], sizes, n_obj, pieces, chunk)
+
+
+def _dask_task(evaluate: Any, sizes: np.ndarray, n_obj: int, pieces: list[tuple[int, int]], chunk: int) -> Archive:
+    return _do_task(evaluate, sizes, n_obj, pieces, chunk)
+
+
+def make_tasks(ranges: list[tuple[int, int]], parts: int, align: int) -> list[list[tuple[int, int]]]:
+    """Group disjoint increasing ``ranges`` into about ``parts`` tasks of similar size (ranges cut on
+    multiples of ``align``)."""
+    total = sum(b - a for a, b in ranges)
+    if total <= 0:
+        return []
+    target = max(total // parts, 1)
+    pieces = []
+    for a, b in ranges:
+        pieces += split_ranges(a, b, max(1, round(parts * (b - a) / total)), align)
+    tasks, cur, size = [], [], 0
+    for a, b in pieces:
+        cur.append((a, b))
+        size += b - a
+        if size >= target:
+            tasks.append(cur)
+            cur, size = [], 0
+    if cur:
+        tasks.append(cur)
+    return tasks
 
 
 def run_ranges(evaluate: Callable, sizes: np.ndarray, n_obj: int, start: int, stop: int, workers: int = 1,
                dask_address: str | None = None, progress: Callable[[int], None] | None = None,
-               chunk: int = CHUNK, archive: Archive | None = None) -> tuple[Archive, int]:
-    """Enumerate ``[start, stop)`` on ``workers`` local processes or a Dask cluster.
+               chunk: int = CHUNK, archive: Archive | None = None,
+               ranges: list[tuple[int, int]] | None = None) -> tuple[Archive, int]:
+    """Enumerate ``[start, stop)`` (or the disjoint increasing ``ranges``) on ``workers`` local
+    processes or a Dask cluster.
 
     Parameters
     ----------
@@ -80,7 +106,7 @@ def run_ranges(evaluate: Callable, sizes: np.ndarray, n_obj: int, start: int, st
     sizes : array of int
     n_obj : int
     start, stop : int
-        The index range.
+        The index range (ignored when ``ranges`` is given).
     workers : int
         Local worker processes (1 = this process). Ignored with ``dask_address``.
     dask_address : str, optional
@@ -88,7 +114,9 @@ def run_ranges(evaluate: Callable, sizes: np.ndarray, n_obj: int, start: int, st
     progress : callable, optional
         ``progress(n)`` as candidates finish.
     archive : Archive, optional
-        Merge into this archive (of indices outside the range).
+        Merge into this archive (of indices outside the ranges).
+    ranges : list of (start, stop), optional
+        Several ranges (e.g. the blocks a bound leaves, :mod:`.bounds`).
 
     Returns
     -------
@@ -99,24 +127,26 @@ def run_ranges(evaluate: Callable, sizes: np.ndarray, n_obj: int, start: int, st
     """
     sizes = np.asarray(sizes, np.int64)
     arch = archive if archive is not None else Archive(n_obj, sizes.size)
+    ranges = [(start, stop)] if ranges is None else [(a, b) for a, b in ranges if b > a]
     align = _ChunkDigits(sizes, chunk).chunk
     if dask_address:
-        return _run_dask(evaluate, sizes, n_obj, start, stop, dask_address, progress, chunk, align, arch)
-    if workers <= 1 or stop - start <= align:
-        exhaustive_range(evaluate, sizes, n_obj, start, stop, chunk, progress, arch)
-        return arch, 1
-    ranges = split_ranges(start, stop, workers * TASKS_PER_WORKER, align)
-    with ProcessPoolExecutor(max_workers=workers, initializer=_init_worker, initargs=(evaluate,)) as pool:
-        futures = {pool.submit(_local_task, sizes, n_obj, a, b, chunk): b - a for a, b in ranges}
-        for fut in as_completed(futures):
-            part, _ = fut.result()
+        return _run_dask(evaluate, sizes, n_obj, ranges, dask_address, progress, chunk, align, arch)
+    if workers <= 1 or sum(b - a for a, b in ranges) <= align:
+        for a, b in ranges:
+            part = exhaustive_range(evaluate, sizes, n_obj, a, b, chunk, progress)
             arch.merge(part)
+        return arch, 1
+    tasks = make_tasks(ranges, workers * TASKS_PER_WORKER, align)
+    with ProcessPoolExecutor(max_workers=workers, initializer=_init_worker, initargs=(evaluate,)) as pool:
+        futures = {pool.submit(_local_task, sizes, n_obj, t, chunk): sum(b - a for a, b in t) for t in tasks}
+        for fut in as_completed(futures):
+            arch.merge(fut.result())
             if progress is not None:
                 progress(futures[fut])
     return arch, workers
 
 
-def _run_dask(evaluate, sizes, n_obj, start, stop, address, progress, chunk, align, arch):
+def _run_dask(evaluate, sizes, n_obj, ranges, address, progress, chunk, align, arch):
     from strainline.optimizer.errors import InputError
 
     try:
@@ -132,12 +162,11 @@ def _run_dask(evaluate, sizes, n_obj, start, stop, address, progress, chunk, ali
     try:
         threads = max(1, sum(client.nthreads().values()))
         ev = client.scatter(evaluate, broadcast=True)
-        ranges = split_ranges(start, stop, threads * TASKS_PER_WORKER, align)
-        futures = [client.submit(_dask_task, ev, sizes, n_obj, a, b, chunk, pure=False) for a, b in ranges]
-        size_of = {f.key: b - a for f, (a, b) in zip(futures, ranges)}
+        tasks = make_tasks(ranges, threads * TASKS_PER_WORKER, align)
+        futures = [client.submit(_dask_task, ev, sizes, n_obj, t, chunk, pure=False) for t in tasks]
+        size_of = {f.key: sum(b - a for a, b in t) for f, t in zip(futures, tasks)}
         for fut in dask_as_completed(futures):
-            part, _ = fut.result()
-            arch.merge(part)
+            arch.merge(fut.result())
             if progress is not None:
                 progress(size_of[fut.key])
     finally:
