@@ -61,7 +61,7 @@ def microstrip_front():
 
 @pytest.fixture(scope="module")
 def serial_result(microstrip_front):
-    return verify_front(microstrip_front, workers=1, cells_per_feature=CPF)
+    return verify_front(microstrip_front, workers=1, cells_per_feature=CPF, keep_unverified=True)
 
 
 def test_field_check_records_field_closed_form_error_and_refined_width(microstrip_front, serial_result):
@@ -100,10 +100,27 @@ def test_input_front_is_not_modified(microstrip_front, serial_result):
 def test_width_range_override_marks_out_of_range(microstrip_front):
     front = copy.deepcopy(microstrip_front)
     front["candidates"] = front["candidates"][:1]
-    res = verify_front(front, cells_per_feature=CPF, width_range_um=(100.0, 200.0))
+    res = verify_front(front, cells_per_feature=CPF, width_range_um=(100.0, 200.0), keep_unverified=True)
     fc = res["candidates"][0]["line"]["field_check"]
     assert fc["refined_ok"] and not fc["refined_width_in_range"]
     assert res["field_verification"]["refined_out_of_range"] == 1
+    assert fc["passed"] is False and "outside the width range" in fc["reasons"][0]
+    assert res["field_verification"]["message"].startswith("1 of 1 candidates failed field verification (kept")
+
+
+def test_failed_candidates_are_removed_and_counted(microstrip_front, serial_result):
+    # the rule: a field impedance outside the nominal window, or a refined width outside the
+    # range, fails; failures leave the front unless kept (candidate 2 cannot be solved at all)
+    res = verify_front(microstrip_front, cells_per_feature=CPF, nominal_error_pct=1.0)
+    summary = res["field_verification"]
+    marked = [c["line"]["field_check"] for c in serial_result["candidates"]]
+    failed = [i for i, fc in enumerate(marked)
+              if fc["error"] or abs(fc["impedance_error_pct"]) > 1.0 or not fc["refined_width_in_range"]]
+    assert 2 in failed and 0 in failed        # candidate 0 is -2.7 % off (lines.md 2): outside +/-1 %
+    assert summary["failed_candidates"] == len(failed)
+    assert [r["id"] for r in summary["removed"]] == failed
+    assert len(res["candidates"]) == 3 - len(failed)
+    assert summary["message"] == f"{len(failed)} of 3 candidates failed field verification and were removed"
 
 
 def test_pair_front_refines_differential_impedance():
@@ -119,7 +136,7 @@ def test_pair_front_refines_differential_impedance():
 
 def test_local_processes_give_the_same_numbers(microstrip_front, serial_result):
     seen = []
-    res = verify_front(microstrip_front, workers=2, cells_per_feature=CPF,
+    res = verify_front(microstrip_front, workers=2, cells_per_feature=CPF, keep_unverified=True,
                        progress=lambda done, total: seen.append((done, total)))
     assert res["field_verification"]["backend"] == "processes"
     assert seen[-1] == (3, 3)
@@ -136,7 +153,8 @@ def test_dask_local_cluster_gives_the_same_numbers(microstrip_front, serial_resu
     front["candidates"] = [front["candidates"][i] for i in keep]
     with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True,
                                   host="127.0.0.1", dashboard_address=None) as cluster:
-        res = verify_front(front, dask_address=cluster.scheduler_address, cells_per_feature=CPF)
+        res = verify_front(front, dask_address=cluster.scheduler_address, cells_per_feature=CPF,
+                           keep_unverified=True)
     assert res["field_verification"]["backend"] == "dask"
     assert res["field_verification"]["failed"] == 1
     for a, b in zip(res["candidates"], [serial_result["candidates"][i] for i in keep]):
@@ -159,7 +177,7 @@ def test_shared_cross_sections_are_solved_once(microstrip_front, serial_result):
     twin = copy.deepcopy(front["candidates"][0])
     twin["id"] = 9   # the same line in another stack
     front["candidates"] = [front["candidates"][0], twin]
-    res = verify_front(front, cells_per_feature=CPF)
+    res = verify_front(front, cells_per_feature=CPF, keep_unverified=True)
     assert res["field_verification"]["distinct_cross_sections"] == 1
     a, b = (dict(c["line"]["field_check"]) for c in res["candidates"])
     assert a == b

@@ -55,7 +55,6 @@ from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
-
 from strainline.models.fields.grid import Box, Problem, bisect, graded_points, solve
 from strainline.models.units import C0, EPS0
 
@@ -96,6 +95,10 @@ class FieldResult:
         Unknowns of the finest mesh (per mode solve).
     cells_per_feature : float
         Base-mesh density used (after any refinement for ``max_estimate_pct``).
+    tan_eff : float
+        Electric-energy-weighted loss tangent of the (odd) mode on the finest mesh, for the
+        dielectric loss alpha_d = pi sqrt(eps_eff) tan_eff / lambda0; ``nan`` when no layer
+        carries a loss tangent.
     """
 
     z0_ohm: float
@@ -110,6 +113,7 @@ class FieldResult:
     order: float
     nodes: int
     cells_per_feature: float = math.nan
+    tan_eff: float = math.nan
 
     @property
     def target_ohm(self) -> float:
@@ -119,19 +123,32 @@ class FieldResult:
 
 @dataclass(frozen=True)
 class _Section:
-    """A scalar cross-section resolved from a geometry record (SI)."""
+    """A scalar cross-section resolved from a geometry record (SI).
+
+    ``below``: (thickness, Dk, Df) from the bottom plane up to the trace's bottom face;
+    ``above``: (thickness, Dk, Df) from the trace's top face up (stripline: to the top plane;
+    outer lines: the cover bands, air above them); ``fill``: (Dk, Df) of the band beside the
+    trace (the trace's own thickness).
+    """
 
     kind: str
     w: float
     s: float
     t: float
-    layers: tuple[tuple[float, float], ...]   # (thickness, Dk) from the bottom plane up to the trace
-    h_top: float
-    er_top: float
-    cover: float
-    cover_er: float
+    below: tuple[tuple[float, float, float], ...]
+    above: tuple[tuple[float, float, float], ...]
+    fill: tuple[float, float]
     bottom_ground: bool
     ground_width: float
+
+    @property
+    def layers(self) -> tuple[tuple[float, float], ...]:
+        """(thickness, Dk) below the trace (older name)."""
+        return tuple((a, e) for a, e, _ in self.below)
+
+    @property
+    def lossy(self) -> bool:
+        return any(d > 0 for *_, d in self.below + self.above) or self.fill[1] > 0
 
 
 def _scalar(geom: Any, name: str, default: float = math.nan) -> float:
@@ -142,8 +159,21 @@ def _scalar(geom: Any, name: str, default: float = math.nan) -> float:
     return float(arr.reshape(-1)[0])
 
 
-def _section(kind: str, geom: Any, layers_below: Sequence[tuple[float, float]] | None,
-             ground_width_m: float | None) -> _Section:
+def _bands(layers: Sequence[Sequence[float]]) -> tuple[tuple[float, float, float], ...]:
+    """(thickness, Dk[, Df]) entries as (thickness, Dk, Df), zero-thickness entries dropped."""
+    out = []
+    for lay in layers:
+        a, e = float(lay[0]), float(lay[1])
+        d = float(lay[2]) if len(lay) > 2 else 0.0
+        if a > 0:
+            out.append((a, e, d))
+    return tuple(out)
+
+
+def _section(kind: str, geom: Any, layers_below: Sequence[Sequence[float]] | None,
+             ground_width_m: float | None,
+             layers_above: Sequence[Sequence[float]] | None = None,
+             fill: Sequence[float] | None = None) -> _Section:
     if kind not in FIELD_KINDS:
         raise ValueError(f"kind {kind!r} is not one of {list(FIELD_KINDS)}")
     w = _scalar(geom, "width_m")
@@ -156,81 +186,89 @@ def _section(kind: str, geom: Any, layers_below: Sequence[tuple[float, float]] |
     cover = _scalar(geom, "cover_m", 0.0)
     cover_er = _scalar(geom, "cover_er", 1.0)
     bg = bool(np.asarray(getattr(geom, "bottom_ground", True)).reshape(-1)[0])
-    if layers_below is not None:
-        layers = tuple((float(a), float(b)) for a, b in layers_below if float(a) > 0)
-        h = sum(a for a, _ in layers)
-    else:
-        layers = ((h, er),)
-    checks = {"width_m": w > 0, "height_m": h > 0, "thickness_m": t >= 0,
-              "er": all(e >= 1 for _, e in layers)}
+    below = _bands(layers_below) if layers_below is not None else ((h, er, 0.0),)
+    checks = {"width_m": w > 0, "height_m": sum(a for a, *_ in below) > 0, "thickness_m": t >= 0,
+              "er": all(e >= 1 for _, e, _ in below)}
     if kind in _STRIP_KINDS:
-        h_top = h if math.isnan(h_top) else h_top
-        er_top = layers[-1][1] if math.isnan(er_top) else er_top
-        checks.update(height_top_m=h_top > 0, er_top=er_top >= 1)
-        cover = 0.0
+        if layers_above is not None:
+            above = _bands(layers_above)
+        else:
+            h_top = sum(a for a, *_ in below) if math.isnan(h_top) else h_top
+            er_top = below[-1][1] if math.isnan(er_top) else er_top
+            above = ((h_top, er_top, 0.0),) if h_top > 0 else ()
+            checks["height_top_m"] = h_top > 0
+        checks["er_top"] = bool(above) and all(e >= 1 for _, e, _ in above)
     else:
-        cover = 0.0 if math.isnan(cover) else cover
-        checks.update(cover_m=cover >= 0, cover_er=(cover == 0) or cover_er >= 1)
+        if layers_above is not None:
+            above = _bands(layers_above)
+        else:
+            cover = 0.0 if math.isnan(cover) else cover
+            checks.update(cover_m=cover >= 0, cover_er=(cover == 0) or cover_er >= 1)
+            above = ((cover, cover_er, 0.0),) if cover > 0 else ()
+        checks["cover_er"] = all(e >= 1 for _, e, _ in above)
+    if fill is None:
+        fill_t = (above[0][1], above[0][2]) if above else (1.0, 0.0)
+    else:
+        fill_t = (float(fill[0]), float(fill[1]) if len(fill) > 1 else 0.0)
+    checks["fill"] = fill_t[0] >= 1
     if kind in PAIR_KINDS or kind == "coplanar":
         checks["gap_m"] = s > 0
     bad = [k for k, ok in checks.items() if not ok]
     if bad:
         raise ValueError(f"{kind} cross-section has invalid {', '.join(bad)}")
     gw = math.inf if ground_width_m is None else float(ground_width_m)
-    return _Section(kind, w, s, t, layers, h_top, er_top, cover, cover_er, bg, gw)
+    return _Section(kind, w, s, t, below, above, fill_t, bg, gw)
 
 
 def _problems(sec: _Section, mode: str, cells_per_feature: float, open_margin: float
-              ) -> tuple[list[float], list[float], tuple[Box, ...], tuple[Box, ...], dict, float]:
+              ) -> tuple[list[float], list[float], tuple[Box, ...], tuple[Box, ...], dict, float,
+                         tuple[float, ...]]:
     """Key lines, dielectrics, conductors and walls of a half cross-section (x >= 0).
 
     ``mode`` is "single" (magnetic symmetry wall), "even" or "odd" (electric wall).
-    Returns (x keys, y keys, dielectrics, conductors, walls, h_min).
+    Returns (x keys, y keys, dielectrics, conductors, walls, h_min, loss tangents).
     """
     kind = sec.kind
-    h = sum(a for a, _ in sec.layers)
+    h = sum(a for a, *_ in sec.below)
     t = sec.t
     pair = kind in PAIR_KINDS and mode != "single"
     x0 = sec.s / 2 if pair else 0.0
     x1 = x0 + (sec.w if pair else sec.w / 2)
     y_tr0, y_tr1 = h, h + t
     strip = kind in _STRIP_KINDS
-    feats = [sec.w / 2 if not pair else sec.w, h] + [a for a, _ in sec.layers]
+    above_t = sum(a for a, *_ in sec.above)
+    feats = [sec.w / 2 if not pair else sec.w, h] + [a for a, *_ in sec.below + sec.above]
     if pair:
         feats.append(sec.s / 2)
     if t > 0:
         feats.append(t)
-    if sec.cover > 0:
-        feats.append(sec.cover)
     if kind == "coplanar":
         feats.append(sec.s)
-    if strip:
-        feats.append(sec.h_top)
     h_min = min(feats) / cells_per_feature
 
     conductors = [Box(x0, x1, y_tr0, y_tr1, 1.0)]
     xkeys = [0.0, x0, x1]
     ykeys = [0.0, y_tr0, y_tr1]
     y = 0.0
-    for a, _ in sec.layers:
+    for a, *_ in sec.below:
+        y += a
+        ykeys.append(y)
+    y = y_tr1
+    for a, *_ in sec.above:
         y += a
         ykeys.append(y)
     struct_w = x1 + (sec.s + (0 if math.isinf(sec.ground_width) else sec.ground_width)
                      if kind == "coplanar" else 0.0)
     if strip:
-        b = h + t + sec.h_top
-        top = b
-        x_end = x1 + 10.0 * b
+        top = h + t + above_t
+        x_end = x1 + 10.0 * top
         ybot = 0.0
-        ykeys.append(b)
     else:
-        size = max(struct_w, h + t + sec.cover, sec.s if kind == "coplanar" else 0.0)
+        size = max(struct_w, h + t + above_t, sec.s if kind == "coplanar" else 0.0)
         x_end = struct_w + open_margin * size
-        top = h + t + sec.cover + open_margin * size
+        top = h + t + above_t + open_margin * size
         ybot = 0.0 if (kind != "coplanar" or sec.bottom_ground) else -open_margin * size
         ykeys += [top, ybot]
-        if sec.cover > 0:
-            ykeys.append(y_tr1 + sec.cover)
     xkeys.append(x_end)
     if kind == "coplanar":
         g0 = x1 + sec.s
@@ -239,14 +277,20 @@ def _problems(sec: _Section, mode: str, cells_per_feature: float, open_margin: f
         xkeys += [g0, g1]
 
     diel: list[Box] = []
+    tans: list[float] = []
     y = 0.0
-    for a, e in sec.layers:
+    for a, e, d in sec.below:
         diel.append(Box(-1.0, x_end + 1.0, y, y + a, e))
+        tans.append(d)
         y += a
-    if strip:
-        diel.append(Box(-1.0, x_end + 1.0, y_tr0, top, sec.er_top))
-    elif sec.cover > 0:
-        diel.append(Box(-1.0, x_end + 1.0, y_tr0, y_tr1 + sec.cover, sec.cover_er))
+    if t > 0 and (sec.fill[0] != 1.0 or sec.fill[1] > 0):
+        diel.append(Box(-1.0, x_end + 1.0, y_tr0, y_tr1, sec.fill[0]))
+        tans.append(sec.fill[1])
+    y = y_tr1
+    for a, e, d in sec.above:
+        diel.append(Box(-1.0, x_end + 1.0, y, y + a, e))
+        tans.append(d)
+        y += a
     walls = {
         "left": "electric" if mode == "odd" else "magnetic",
         "right": "electric",
@@ -255,17 +299,18 @@ def _problems(sec: _Section, mode: str, cells_per_feature: float, open_margin: f
     }
     if ybot < 0:
         ykeys.append(ybot)
-    return xkeys, ykeys, tuple(diel), tuple(conductors), walls, h_min
+    return xkeys, ykeys, tuple(diel), tuple(conductors), walls, h_min, tuple(tans)
 
 
 def _mode_capacitances(sec: _Section, mode: str, cells_per_feature: float, open_margin: float,
-                       levels: int) -> tuple[np.ndarray, np.ndarray, int]:
+                       levels: int) -> tuple[np.ndarray, np.ndarray, int, float]:
     """Relative capacitance (with dielectric, in air) of one mode on ``levels`` nested meshes.
 
     Returns arrays of shape (levels,) in F/m, for the whole line (a centred single line is
-    doubled from its half), and the unknowns of the finest mesh.
+    doubled from its half), the unknowns of the finest mesh and the energy-weighted loss
+    tangent on the finest mesh (``nan`` for a lossless section).
     """
-    xk, yk, diel, cond, walls, h_min = _problems(sec, mode, cells_per_feature, open_margin)
+    xk, yk, diel, cond, walls, h_min, tans = _problems(sec, mode, cells_per_feature, open_margin)
     span = max(xk) - min(xk)
     xb = graded_points(xk, h_min, GRADING_RATIO, span)
     yb = graded_points(yk, h_min, GRADING_RATIO, max(yk) - min(yk))
@@ -273,12 +318,16 @@ def _mode_capacitances(sec: _Section, mode: str, cells_per_feature: float, open_
     c = np.empty(levels)
     ca = np.empty(levels)
     nodes = 0
+    tan = math.nan
     for lev in range(levels):
-        sol = solve(Problem(bisect(xb, lev), bisect(yb, lev), diel, cond, walls))
+        last = lev == levels - 1
+        sol = solve(Problem(bisect(xb, lev), bisect(yb, lev), diel, cond, walls,
+                            tans if (last and sec.lossy) else ()))
         c[lev] = factor * EPS0 * sol.c_rel
         ca[lev] = factor * EPS0 * sol.c_air_rel
         nodes = sol.nodes
-    return c, ca, nodes
+        tan = sol.tan_eff
+    return c, ca, nodes, tan
 
 
 def richardson(values: np.ndarray) -> tuple[float, float, float]:
@@ -316,20 +365,22 @@ def richardson(values: np.ndarray) -> tuple[float, float, float]:
 
 
 def _mode_result(sec: _Section, mode: str, cells_per_feature: float, open_margin: float,
-                 levels: int) -> tuple[float, float, float, float, int]:
-    """(Z, eps_eff, gci of Z, order, nodes) of one mode."""
-    c, ca, nodes = _mode_capacitances(sec, mode, cells_per_feature, open_margin, levels)
+                 levels: int) -> tuple[float, float, float, float, int, float]:
+    """(Z, eps_eff, gci of Z, order, nodes, tan_eff) of one mode."""
+    c, ca, nodes, tan = _mode_capacitances(sec, mode, cells_per_feature, open_margin, levels)
     c_ext, gc, pc = richardson(c)
     ca_ext, ga, pa = richardson(ca)
     z = 1.0 / (C0 * math.sqrt(c_ext * ca_ext))
-    return z, c_ext / ca_ext, 0.5 * (gc + ga), min(pc, pa), nodes
+    return z, c_ext / ca_ext, 0.5 * (gc + ga), min(pc, pa), nodes, tan
 
 
 def field_solve(kind: str, geom: Any, *, cells_per_feature: float = 3.0, levels: int = 3,
                 open_margin: float = 60.0, isolated_line: bool = True, even_mode: bool = True,
-                layers_below: Sequence[tuple[float, float]] | None = None,
+                layers_below: Sequence[Sequence[float]] | None = None,
                 ground_width_m: float | None = None,
-                max_estimate_pct: float | None = None) -> FieldResult:
+                max_estimate_pct: float | None = None,
+                layers_above: Sequence[Sequence[float]] | None = None,
+                fill: Sequence[float] | None = None) -> FieldResult:
     """Field-solve one cross-section.
 
     Parameters
@@ -354,11 +405,19 @@ def field_solve(kind: str, geom: Any, *, cells_per_feature: float = 3.0, levels:
     even_mode : bool
         Pairs: also solve the even mode (otherwise ``z_even_ohm``, ``z_common_ohm`` and
         ``eps_eff_even`` are ``nan``; Z_diff needs the odd mode only).
-    layers_below : sequence of (thickness_m, dk), optional
+    layers_below : sequence of (thickness_m, dk[, df]), optional
         Dielectric layers from the plane (y = 0) up to the trace's bottom face, overriding
-        ``height_m`` and ``er`` (each layer its own Dk).
+        ``height_m`` and ``er`` (each layer its own Dk and, optionally, loss tangent).
     ground_width_m : float, optional
         Coplanar: width of each side ground, m (default: to the side walls).
+    layers_above : sequence of (thickness_m, dk[, df]), optional
+        Layers from the trace's top face up, overriding ``height_top_m``/``er_top`` (stripline
+        kinds: up to the top plane) or ``cover_m``/``cover_er`` (other kinds: the cover bands,
+        air above). Each is its own dielectric band: a real cover of adhesive and film, or the
+        adhesive, film and adhesive of a laminate gap.
+    fill : (dk[, df]), optional
+        Dielectric beside the trace (the band of the copper's own thickness); default the first
+        layer above (the adhesive or cover that flows around the trace), air when there is none.
     max_estimate_pct : float, optional
         Refine the base mesh (x1.6 cells per feature, at most twice) while the error estimate is
         above this, percent. Thin-copper-free (zero-thickness) strips need it most: their edge
@@ -380,7 +439,7 @@ def field_solve(kind: str, geom: Any, *, cells_per_feature: float = 3.0, levels:
     wavelength, lossless perfect conductors, isotropic dielectrics. Rectangular conductors (no
     etch trapezoid), perfectly smooth.
     """
-    sec = _section(kind, geom, layers_below, ground_width_m)
+    sec = _section(kind, geom, layers_below, ground_width_m, layers_above, fill)
     res = _field_solve(sec, kind, cells_per_feature, open_margin, levels, isolated_line, even_mode)
     refinements = 0
     while (max_estimate_pct is not None and res.error_estimate_pct > max_estimate_pct
@@ -397,19 +456,19 @@ def _field_solve(sec: _Section, kind: str, cells_per_feature: float, open_margin
     nan = math.nan
     args = (cells_per_feature, open_margin, levels)
     if kind in PAIR_KINDS:
-        zo, eo, go, po, n1 = _mode_result(sec, "odd", *args)
+        zo, eo, go, po, n1, to = _mode_result(sec, "odd", *args)
         ze = ee = nan
         ge, pe = 0.0, math.inf
         if even_mode:
-            ze, ee, ge, pe, _ = _mode_result(sec, "even", *args)
-        z0 = e0 = nan
+            ze, ee, ge, pe, _, _ = _mode_result(sec, "even", *args)
+        z0 = nan
         g0, p0 = 0.0, math.inf
         if isolated_line:
-            z0, e0, g0, p0, _ = _mode_result(sec, "single", *args)
+            z0, _, g0, p0, _, _ = _mode_result(sec, "single", *args)
         return FieldResult(z0, eo, zo, ze, 2 * zo, ze / 2, eo, ee,
-                           100 * max(go, ge, g0), min(po, pe, p0), n1, cells_per_feature)
-    z, e, g, p, n = _mode_result(sec, "single", *args)
-    return FieldResult(z, e, nan, nan, nan, nan, nan, nan, 100 * g, p, n, cells_per_feature)
+                           100 * max(go, ge, g0), min(po, pe, p0), n1, cells_per_feature, to)
+    z, e, g, p, n, tn = _mode_result(sec, "single", *args)
+    return FieldResult(z, e, nan, nan, nan, nan, nan, nan, 100 * g, p, n, cells_per_feature, tn)
 
 
 def _with_width(geom: Any, width_m: float) -> Any:
@@ -445,9 +504,11 @@ def field_solve_width(kind: str, target_ohm: float, geom: Any, width_start_m: fl
                       width_min_m: float = 0.0, width_max_m: float = math.inf,
                       tol_pct: float = 0.05, max_iter: int = 12, max_rounds: int = 4,
                       cells_per_feature: float = 3.0, open_margin: float = 60.0,
-                      layers_below: Sequence[tuple[float, float]] | None = None,
+                      layers_below: Sequence[Sequence[float]] | None = None,
                       ground_width_m: float | None = None,
-                      start: FieldResult | None = None) -> WidthSolution:
+                      start: FieldResult | None = None,
+                      layers_above: Sequence[Sequence[float]] | None = None,
+                      fill: Sequence[float] | None = None) -> WidthSolution:
     """Width for a target impedance with the field solver (secant in log-width).
 
     The target is Z0 for single lines and Z_diff for pairs. A full three-mesh solve at the start
@@ -473,7 +534,7 @@ def field_solve_width(kind: str, target_ohm: float, geom: Any, width_start_m: fl
         Most cheap secant steps in total.
     max_rounds : int
         Most confirming full solves after the start (each may re-scale the cheap model).
-    cells_per_feature, open_margin, layers_below, ground_width_m
+    cells_per_feature, open_margin, layers_below, ground_width_m, layers_above, fill
         As in :func:`field_solve`.
     start : FieldResult, optional
         A full solve already made at ``width_start_m`` (saves one solve).
@@ -485,7 +546,8 @@ def field_solve_width(kind: str, target_ohm: float, geom: Any, width_start_m: fl
     if not (target_ohm > 0 and width_start_m > 0):
         raise ValueError("field_solve_width needs target_ohm > 0 and width_start_m > 0")
     kw = dict(cells_per_feature=cells_per_feature, open_margin=open_margin,
-              layers_below=layers_below, ground_width_m=ground_width_m)
+              layers_below=layers_below, ground_width_m=ground_width_m,
+              layers_above=layers_above, fill=fill)
     solves = 0
 
     def full(w: float) -> FieldResult:
@@ -498,7 +560,8 @@ def field_solve_width(kind: str, target_ohm: float, geom: Any, width_start_m: fl
         solves += 1
         r = field_solve(kind, _with_width(geom, w), isolated_line=False, even_mode=False, levels=1,
                         cells_per_feature=cells_per_feature * 2.0, open_margin=open_margin,
-                        layers_below=layers_below, ground_width_m=ground_width_m)
+                        layers_below=layers_below, ground_width_m=ground_width_m,
+                        layers_above=layers_above, fill=fill)
         return r.target_ohm
 
     w0 = float(width_start_m)

@@ -41,8 +41,17 @@ from collections.abc import Callable, Iterable, Mapping
 from concurrent.futures import ProcessPoolExecutor, as_completed
 from typing import Any
 
-from strainline.models.units import UM
 from strainline.optimizer.errors import InputError
+from strainline.optimizer.search.fieldcheck import (  # noqa: F401 - re-exported
+    MAX_ESTIMATE_PCT,
+    _num,
+    _round,
+    _study_line,
+    check_candidate,
+    geom_width,
+    layered_section,
+    study_nominal_pct,
+)
 
 #: Line kinds whose target is the differential impedance.
 PAIR_KINDS = ("coupled-microstrip", "coupled-stripline")
@@ -56,28 +65,6 @@ CAUTION = (
 
 Progress = Callable[[int, int], None]
 
-#: The base mesh is refined (at most twice) while the solver's error estimate exceeds this, percent.
-MAX_ESTIMATE_PCT = 0.5
-
-
-def _num(value: Any, default: float = math.nan) -> float:
-    if value is None:
-        return default
-    try:
-        return float(value)
-    except (TypeError, ValueError):
-        return default
-
-
-def _round(x: float, digits: int = 6) -> float | None:
-    if x is None or not math.isfinite(x):
-        return None
-    return float(f"{x:.{digits}g}")
-
-
-def _study_line(study: Mapping[str, Any]) -> Mapping[str, Any]:
-    line = study.get("line") if isinstance(study, Mapping) else None
-    return line if isinstance(line, Mapping) else {}
 
 
 def study_target(front: Mapping[str, Any]) -> tuple[float, float, float]:
@@ -100,9 +87,11 @@ def study_target(front: Mapping[str, Any]) -> tuple[float, float, float]:
 
 def build_tasks(front: Mapping[str, Any], target_ohm: float | None = None,
                 width_range_um: tuple[float, float] | None = None,
-                cells_per_feature: float = 3.0, tol_pct: float = 0.05) -> list[dict[str, Any]]:
+                cells_per_feature: float = 3.0, tol_pct: float = 0.05,
+                nominal_error_pct: float | None = None) -> list[dict[str, Any]]:
     """One plain-dict task per candidate (picklable; what the workers receive)."""
     s_target, s_wmin, s_wmax = study_target(front)
+    nominal = study_nominal_pct(front) if nominal_error_pct is None else float(nominal_error_pct)
     if target_ohm is not None:
         s_target = float(target_ohm)
     if width_range_um is not None:
@@ -113,7 +102,8 @@ def build_tasks(front: Mapping[str, Any], target_ohm: float | None = None,
         geo = line.get("geometry", {}) or {}
         kind = str(line.get("type", ""))
         pair = kind in PAIR_KINDS
-        z_cf = _num(line.get("z_diff_ohm") if pair else line.get("z0_ohm"))
+        z_cf = _num((line.get("closed_form") or {}).get("z_ohm"),
+                    _num(line.get("z_diff_ohm") if pair else line.get("z0_ohm")))
         target = s_target
         if not math.isfinite(target):
             target = _num(line.get("target_ohm"), z_cf)
@@ -136,96 +126,10 @@ def build_tasks(front: Mapping[str, Any], target_ohm: float | None = None,
             "width_max_um": s_wmax,
             "cells_per_feature": float(cells_per_feature),
             "tol_pct": float(tol_pct),
+            "nominal_error_pct": nominal,
+            "section": layered_section(cand, kind),
         })
     return tasks
-
-
-def _geometry(task: Mapping[str, Any]) -> Any:
-    try:
-        from strainline.models.lines import LineGeometry
-    except ImportError:  # pragma: no cover - the closed forms ship with the package
-        from strainline.models.lines.geometry import LineGeometry
-    return LineGeometry(
-        width_m=task["width_um"] * UM,
-        gap_m=task["gap_um"] * UM,
-        height_m=task["height_um"] * UM,
-        height_top_m=task["height_top_um"] * UM,
-        thickness_m=task["thickness_um"] * UM,
-        er=task["er"],
-        er_top=task["er_top"],
-        cover_m=task["cover_um"] * UM,
-        cover_er=task["cover_er"],
-        bottom_ground=task["bottom_ground"],
-    )
-
-
-def check_candidate(task: Mapping[str, Any]) -> dict[str, Any]:
-    """Field-check one candidate (runs in a worker). Never raises for a bad cross-section.
-
-    Parameters
-    ----------
-    task : dict
-        One entry of :func:`build_tasks` (lengths in um, impedances in ohm).
-
-    Returns
-    -------
-    dict
-        The ``field_check`` record described in the module notes, plus ``index`` and ``seconds``.
-    """
-    from strainline.models.fields import field_solve, field_solve_width
-
-    t0 = time.perf_counter()
-    kind = task["kind"]
-    pair = kind in PAIR_KINDS
-    key = "z_diff_ohm" if pair else "z0_ohm"
-    out: dict[str, Any] = {"index": task["index"], key: None, "eps_eff": None, "width_um": None,
-                           "closed_form_error_pct": None, "error_estimate_pct": None,
-                           "z_refined_ohm": None, "refined_ok": False,
-                           "refined_width_in_range": False, "target_ohm": _round(task["target_ohm"]),
-                           "error": None}
-    try:
-        geom = _geometry(task)
-        cpf = task["cells_per_feature"]
-        res = field_solve(kind, geom, cells_per_feature=cpf, isolated_line=False,
-                          max_estimate_pct=MAX_ESTIMATE_PCT)
-        cpf = res.cells_per_feature
-        z_field = res.target_ohm
-        out[key] = _round(z_field)
-        out["eps_eff"] = _round(res.eps_eff)
-        if pair:
-            out["z_odd_ohm"] = _round(res.z_odd_ohm)
-            out["z_even_ohm"] = _round(res.z_even_ohm)
-            out["z_common_ohm"] = _round(res.z_common_ohm)
-            out["eps_eff_even"] = _round(res.eps_eff_even)
-        z_cf = task["z_closed_form_ohm"]
-        out["closed_form_error_pct"] = _round(100.0 * (z_cf - z_field) / z_field, 4)
-        target = task["target_ohm"]
-        wmin, wmax = task["width_min_um"], task["width_max_um"]
-        if not (math.isfinite(target) and target > 0):
-            raise ValueError("no target impedance for the width refinement")
-        ws = field_solve_width(kind, target, geom, geom_width(task), start=res,
-                               cells_per_feature=cpf, tol_pct=task["tol_pct"],
-                               width_min_m=(wmin * UM / 4 if math.isfinite(wmin) else 0.0),
-                               width_max_m=(wmax * UM * 4 if math.isfinite(wmax) else math.inf))
-        out["width_um"] = _round(ws.width_m / UM)
-        out["z_refined_ohm"] = _round(ws.result.target_ohm)
-        z_err = abs(ws.result.target_ohm / target - 1.0) * 100.0
-        out["refined_ok"] = bool(math.isfinite(ws.width_m) and z_err <= task["tol_pct"])
-        w_um = ws.width_m / UM
-        lo = wmin if math.isfinite(wmin) else -math.inf
-        hi = wmax if math.isfinite(wmax) else math.inf
-        out["refined_width_in_range"] = bool(out["refined_ok"] and lo <= w_um <= hi)
-        out["error_estimate_pct"] = _round(max(res.error_estimate_pct,
-                                               ws.result.error_estimate_pct), 3)
-    except ValueError as exc:  # a non-physical or unsupported cross-section: note it, go on
-        out["error"] = str(exc)
-    out["seconds"] = round(time.perf_counter() - t0, 3)
-    return out
-
-
-def geom_width(task: Mapping[str, Any]) -> float:
-    """Start width of the refinement, m (the candidate's closed-form width)."""
-    return task["width_um"] * UM
 
 
 def _run_local(tasks: list[dict], workers: int, progress: Progress | None) -> Iterable[dict]:
@@ -272,7 +176,8 @@ def verify_front(front: dict, workers: int = 1, dask_address: str | None = None,
                  progress: Progress | None = None, *, target_ohm: float | None = None,
                  width_range_um: tuple[float, float] | None = None,
                  cells_per_feature: float = 3.0, tol_pct: float = 0.05,
-                 dask_timeout_s: float = 10.0) -> dict:
+                 dask_timeout_s: float = 10.0, keep_unverified: bool = False,
+                 nominal_error_pct: float | None = None) -> dict:
     """Field-check every candidate of a front and refine its width to the target.
 
     Parameters
@@ -297,12 +202,25 @@ def verify_front(front: dict, workers: int = 1, dask_address: str | None = None,
         How close the refined width's field-solved impedance must come to the target, percent.
     dask_timeout_s : float
         How long to wait for the Dask scheduler, s.
+    keep_unverified : bool
+        Keep candidates that fail the check on the front (marked); by default they are removed
+        and listed in ``field_verification.removed``.
+    nominal_error_pct : float, optional
+        The nominal impedance window, percent (default: the study's, see :func:`study_nominal_pct`).
 
     Returns
     -------
     dict
-        A copy of ``front`` with ``line.field_check`` in every candidate and a top-level
-        ``field_verification`` summary (backend, workers, seconds, counts, caution).
+        A copy of ``front`` with ``line.field_check`` in every candidate (``passed``, ``reasons``)
+        and a top-level ``field_verification`` summary (backend, workers, seconds, counts,
+        ``failed_candidates``, ``removed``, ``message``, caution).
+
+    Notes
+    -----
+    A candidate fails when its field impedance at the reported width is outside the nominal
+    window, when no width reaches the target with the field solver, when the field-refined width
+    leaves the study's width range, or when its cross-section cannot be solved. The field solve is
+    of the candidate's own layered stack (every film, adhesive and cover its own band).
 
     Raises
     ------
@@ -312,7 +230,7 @@ def verify_front(front: dict, workers: int = 1, dask_address: str | None = None,
     if not isinstance(workers, int) or workers < 1:
         raise InputError(f"{workers!r} is not a worker count (an integer >= 1)", "--workers")
     out = copy.deepcopy(front)
-    tasks = build_tasks(out, target_ohm, width_range_um, cells_per_feature, tol_pct)
+    tasks = build_tasks(out, target_ohm, width_range_um, cells_per_feature, tol_pct, nominal_error_pct)
     # candidates that share a line cross-section (same line in different stacks) are solved once
     unique: dict[tuple, dict] = {}
     members: dict[int, list[int]] = {}
@@ -334,9 +252,22 @@ def verify_front(front: dict, workers: int = 1, dask_address: str | None = None,
         for i in members[first]:
             checks[i] = copy.deepcopy(r)
     seconds = time.perf_counter() - t0
-    for i, cand in enumerate(out.get("candidates", [])):
+    cands = out.get("candidates", [])
+    for i, cand in enumerate(cands):
         cand.setdefault("line", {})["field_check"] = checks[i]
     fc = [c for c in checks.values()]
+    failed = [c for c in cands if not c["line"]["field_check"]["passed"]]
+    removed = []
+    if failed and not keep_unverified:
+        removed = [{"id": c.get("id"), "reasons": c["line"]["field_check"]["reasons"]} for c in failed]
+        out["candidates"] = [c for c in cands if c["line"]["field_check"]["passed"]]
+    n_all = len(cands)
+    if not failed:
+        message = f"all {n_all} candidates passed field verification"
+    elif removed:
+        message = f"{len(failed)} of {n_all} candidates failed field verification and were removed"
+    else:
+        message = f"{len(failed)} of {n_all} candidates failed field verification (kept, marked: --keep-unverified)"
     out["field_verification"] = {
         "method": "2-D quasi-static finite elements, Richardson-extrapolated over 3 nested meshes",
         "backend": backend,
@@ -347,99 +278,19 @@ def verify_front(front: dict, workers: int = 1, dask_address: str | None = None,
         "failed": sum(1 for c in fc if c["error"]),
         "refined_out_of_range": sum(1 for c in fc if not c["error"] and not c["refined_width_in_range"]),
         "tolerance_pct": tol_pct,
+        "nominal_window_pct": tasks[0]["nominal_error_pct"] if tasks else nominal_error_pct,
+        "cross_section": "each candidate's own layered stack (every film, adhesive and cover its own band)",
+        "failed_candidates": len(failed),
+        "kept_unverified": bool(failed and keep_unverified),
+        "removed": removed,
+        "message": message,
         "caution": CAUTION,
     }
+    if removed and "search" in out and isinstance(out["search"], dict):
+        out["search"]["front_size_before_verification"] = n_all
+        out["search"]["front_size"] = len(out["candidates"])
     return out
 
 
-# --------------------------------------------------------------------------------------------
-# `strainline line --field-solve`
-# --------------------------------------------------------------------------------------------
-
-def field_for_line(kind: str, geom: Any, target_ohm: float | None,
-                   closed_form_ohm: float | None = None,
-                   width_range_um: tuple[float, float] = (10.0, 2000.0)) -> dict[str, Any]:
-    """The ``field`` object of ``strainline line --field-solve --json``.
-
-    Parameters
-    ----------
-    kind : str
-        Line type.
-    geom : LineGeometry
-        One cross-section (SI) with the closed-form width in ``width_m``.
-    target_ohm : float, optional
-        When given, the width is re-solved with the field solver (secant in log-width from the
-        closed-form width) and the figures refer to that width.
-    closed_form_ohm : float, optional
-        The closed-form impedance at the closed-form width (Z0; pairs: Z_diff), ohm, for
-        ``closed_form_error_pct``.
-    width_range_um : (float, float)
-        Widths the field width solve may return, um.
-
-    Returns
-    -------
-    dict
-        ``z0_ohm``, ``eps_eff``, pairs also ``z_odd_ohm``, ``z_even_ohm``, ``z_diff_ohm``,
-        ``z_common_ohm``, ``eps_eff_even``; ``error_estimate_pct``; ``width_um`` the figures refer
-        to and ``width_solved``; ``closed_form_error_pct`` at the closed-form width; ``method``.
-
-    Raises
-    ------
-    InputError
-        The field width solve found no width in ``width_range_um`` for the target.
-    """
-    from dataclasses import replace
-
-    from strainline.models.fields import field_solve, field_solve_width
-
-    pair = kind in PAIR_KINDS
-    try:
-        at_cf = field_solve(kind, geom, max_estimate_pct=MAX_ESTIMATE_PCT)
-    except ValueError as exc:
-        raise InputError(f"the field solver cannot take this cross-section: {exc}", kind) from exc
-    cpf = at_cf.cells_per_feature
-    res, width_m, estimate = at_cf, float(geom.width_m), at_cf.error_estimate_pct
-    if target_ohm is not None:
-        ws = field_solve_width(kind, float(target_ohm), geom, width_m, start=at_cf,
-                               cells_per_feature=cpf, width_min_m=width_range_um[0] * UM,
-                               width_max_m=width_range_um[1] * UM)
-        if not ws.ok:
-            raise InputError(f"{target_ohm:g} ohm cannot be reached by the field solver with widths "
-                             f"{width_range_um[0]:g} to {width_range_um[1]:g} um", "--target-ohm")
-        width_m = ws.width_m
-        res = field_solve(kind, replace(geom, width_m=width_m), cells_per_feature=cpf)
-        estimate = max(estimate, res.error_estimate_pct)
-    out: dict[str, Any] = {"z0_ohm": _round(res.z0_ohm), "eps_eff": _round(res.eps_eff)}
-    if pair:
-        out.update({"z_odd_ohm": _round(res.z_odd_ohm), "z_even_ohm": _round(res.z_even_ohm),
-                    "z_diff_ohm": _round(res.z_diff_ohm), "z_common_ohm": _round(res.z_common_ohm),
-                    "eps_eff_even": _round(res.eps_eff_even)})
-    out["error_estimate_pct"] = _round(estimate, 3)
-    out["width_um"] = _round(width_m / UM)
-    out["width_solved"] = target_ohm is not None
-    cf = None
-    if closed_form_ohm is not None and math.isfinite(closed_form_ohm):
-        z = at_cf.target_ohm
-        cf = _round(100.0 * (closed_form_ohm - z) / z, 4)
-    out["closed_form_error_pct"] = cf
-    out["method"] = ("2-D quasi-static finite elements on graded nested meshes, Richardson-"
-                     "extrapolated; error estimate = grid convergence index (Roache 1994)")
-    return out
-
-
-def field_text(field: Mapping[str, Any]) -> str:
-    """Readable lines for the ``field`` object (non-JSON output)."""
-    def f(v: Any, fmt: str = ".2f") -> str:
-        return "-" if v is None else format(v, fmt)
-
-    head = (f"  field solver: width {f(field['width_um'])} um"
-            + (" (field-solved for the target)" if field.get("width_solved") else ""))
-    if "z_diff_ohm" in field:
-        body = (f"  field: Zdiff {f(field['z_diff_ohm'])} ohm, Zcommon {f(field['z_common_ohm'])} ohm, "
-                f"Zodd {f(field['z_odd_ohm'])} ohm, Zeven {f(field['z_even_ohm'])} ohm, "
-                f"eps_eff {f(field['eps_eff'], '.4f')} (odd)")
-    else:
-        body = f"  field: Z0 {f(field['z0_ohm'])} ohm, eps_eff {f(field['eps_eff'], '.4f')}"
-    tail = (f"  field: error estimate {f(field['error_estimate_pct'], '.3f')} %; closed form differs by "
-            f"{f(field['closed_form_error_pct'], '+.2f')} % at its own width")
-    return "\n".join([head, body, tail])
+# `strainline line --field-solve` lives in linefield.py; re-exported for older imports
+from strainline.optimizer.search.linefield import field_for_line, field_text  # noqa: F401
