@@ -183,3 +183,26 @@ def test_fuzz_option_texts_exit_0_or_2(option, text):
     assert code in (0, 2), (flat, err)
     if code == 2:
         assert err.count("\n") == 1 and "Traceback" not in err, (flat, err)
+
+
+def test_a_candidate_with_a_non_finite_figure_never_reaches_the_files():
+    # front.json writes a non-finite figure as null; the figures a candidate is chosen by must be
+    # numbers (JSON, RFC 8259, has no NaN), so such a candidate is taken off before writing
+    from strainline.optimizer.cli.finite import drop_non_finite
+
+    def cand(i, z_diff):
+        return {"id": f"C{i:03d}", "objectives": {"peak_strain_pct": 0.3},
+                "line": {"type": "coupled-microstrip", "width_um": 80.0, "gap_um": 100.0, "z0_ohm": 50.0,
+                         "z_diff_ohm": z_diff, "eps_eff": 2.5, "impedance_error_pct": 0.1, "loss_db_per_m": 10.0,
+                         "conductor_loss_db_per_m": 8.0, "dielectric_loss_db_per_m": 2.0,
+                         "geometry": {"height_um": 50.0, "thickness_um": 12.0, "er": 3.2, "height_top_um": None}},
+                "bend": {"total_thickness_um": 100.0, "peak_copper_strain_pct": 0.3,
+                         "signal_copper_strain_pct": 0.2, "cycles_to_failure": None}}
+
+    front = {"study": {"line": {"type": "coupled-microstrip"}}, "search": {},
+             "candidates": [cand(1, 90.0), cand(2, None), cand(3, float("nan"))]}
+    notes = drop_non_finite(front)
+    assert [c["id"] for c in front["candidates"]] == ["C001"]       # nulls by design (height_top_um) stay
+    assert len(notes) == 2 and "line.z_diff_ohm" in notes[0]
+    assert front["search"]["dropped_non_finite"]["count"] == 2
+    json.dumps(front["candidates"], allow_nan=False)
