@@ -38,6 +38,9 @@ from strainline.optimizer.errors import StrainlineError
 MANIFEST = "strainline-output.json"
 #: The top-level names an output set may hold.
 OUR_NAMES = frozenset({"front.json", "front.csv", "report.html", "handoff", MANIFEST})
+#: Operating-system errors of writing that are the folder's, not a bug: exit 2 naming the path.
+WRITE_ERRNOS = frozenset({errno.ENOSPC, errno.EDQUOT, errno.EACCES, errno.EPERM, errno.EROFS, errno.EFBIG,
+                          errno.ENAMETOOLONG, errno.ENOTDIR, errno.EISDIR, errno.EIO, errno.EEXIST})
 _NEW, _OLD, _PROBE = ".strainline-new-", ".strainline-old-", ".strainline-probe-"
 
 
@@ -225,6 +228,23 @@ def _swap_in(stage: Path, out: Path) -> None:
     _remove(old)
 
 
+def _lock(folder: Path) -> int | None:
+    """Hold an exclusive ``flock`` on ``folder`` (released when the returned descriptor is closed, or
+    by the kernel when the process dies); None where folders cannot be locked."""
+    try:
+        import fcntl
+
+        fd = os.open(folder, os.O_RDONLY)
+    except (ImportError, OSError):
+        return None
+    try:
+        fcntl.flock(fd, fcntl.LOCK_EX)
+    except OSError:
+        os.close(fd)
+        return None
+    return fd
+
+
 def _umask() -> int:
     mask = os.umask(0)
     os.umask(mask)
@@ -268,9 +288,11 @@ def replace_folder(out_dir: str | os.PathLike[str], fill: Callable[[Path], Itera
     """
     out = check_out(out_dir, force, option)
     stage: Path | None = None
+    lock: int | None = None
     try:
-        recover(out)
         out.parent.mkdir(parents=True, exist_ok=True)
+        lock = _lock(out.parent)          # one writer at a time: a second run cannot take our stage for a leftover
+        recover(out)
         stage = staged = Path(tempfile.mkdtemp(prefix=f".{out.name}{_NEW}", dir=out.parent))
         os.chmod(stage, 0o777 & ~_umask())
         for name in keep:
@@ -281,6 +303,8 @@ def replace_folder(out_dir: str | os.PathLike[str], fill: Callable[[Path], Itera
         _swap_in(stage, out)
         stage = None
     except OSError as exc:
+        if exc.errno not in WRITE_ERRNOS:
+            raise
         where = exc.filename if exc.filename else out
         if stage is not None:
             where = str(where).replace(str(stage), str(out))
@@ -288,6 +312,8 @@ def replace_folder(out_dir: str | os.PathLike[str], fill: Callable[[Path], Itera
     finally:
         if stage is not None:
             _remove(stage)
+        if lock is not None:
+            os.close(lock)
     return [out / p.relative_to(staged) if p.is_relative_to(staged) else p for p in written]
 
 
