@@ -255,3 +255,24 @@ def test_fuzzed_stackups_give_a_stackup_or_one_line(tmp_path):
             load_stackup(p, cat)
         except StackupError as exc:
             assert "\n" not in str(exc) and str(exc).startswith(str(p))
+
+
+@pytest.mark.parametrize("field, value, expect", [
+    ("modulus_gpa", 1e300, "dielectrics.lcp-film.modulus_gpa: must be <= 1000, got 1e+300"),
+    ("modulus_gpa", 10 ** 400, "dielectrics.lcp-film.modulus_gpa: must be <= 1000, got 1000000"),
+    ("dk", float("inf"), "dielectrics.lcp-film.dk: must be a finite number, got inf"),
+    ("thicknesses_um", [25, 1e300], "dielectrics.lcp-film.thicknesses_um[1]: must be <= 10000, got 1e+300"),
+    ("description", 0, "dielectrics.lcp-film.description: must be non-empty text, got 0"),
+])
+def test_absurd_catalog_numbers_are_refused_at_the_field(run_cli, tmp_path, field, value, expect):
+    import shutil
+    from pathlib import Path
+
+    folder = tmp_path / "cat"
+    shutil.copytree(Path(__file__).resolve().parents[1] / "catalogs", folder)
+    doc = yaml.safe_load((folder / "materials.yaml").read_text(encoding="utf-8"))
+    doc["dielectrics"]["lcp-film"][field] = value
+    (folder / "materials.yaml").write_text(yaml.safe_dump(doc, sort_keys=False), encoding="utf-8")
+    code, out, err = run_cli("catalog", "--catalog", folder)
+    assert code == 2 and out == "" and err.count("\n") == 1
+    assert f"{folder / 'materials.yaml'}: {expect}" in err, err
