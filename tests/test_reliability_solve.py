@@ -147,3 +147,19 @@ def test_no_progress_when_quiet_or_off_a_terminal(tmp_path, monkeypatch, quiet):
     assert main(argv + (["--quiet"] if quiet else [])) == 0
     written = "".join(stream.parts) if quiet else stream.getvalue()
     assert written == ""
+
+
+def test_forced_exhaustive_run_over_its_projected_time_is_refused_with_the_flag(tmp_path, run_cli, monkeypatch):
+    # The search projects the run's time from a measured rate and refuses one past the stated limit
+    # (a day; here lowered to a microsecond so the tiny study is over it), naming --force.
+    from strainline.optimizer.search import engine
+
+    monkeypatch.setattr(engine, "REFUSE_S", 1e-6)
+    monkeypatch.setattr(engine, "PROBE_S", 1e-6)               # measure on the first chunk only
+    args = ("solve", STUDY, "--out", tmp_path / "o", "--method", "exhaustive", "--quiet", "--workers", "1",
+            "--impedance", "closed-form")
+    code, out, err = run_cli(*args)
+    assert code == 2 and err.count("\n") == 1 and "--force" in err and "projected" in err, err
+    assert not (tmp_path / "o").exists()                       # nothing written
+    code, out, err = run_cli(*args, "--force")
+    assert code == 0, err
