@@ -206,3 +206,13 @@ def test_a_candidate_with_a_non_finite_figure_never_reaches_the_files():
     assert len(notes) == 2 and "line.z_diff_ohm" in notes[0]
     assert front["search"]["dropped_non_finite"]["count"] == 2
     json.dumps(front["candidates"], allow_nan=False)
+
+
+@pytest.mark.parametrize("argv, option", [
+    (("--method", "exhaustive", "--budget", "5000"), "--budget"),
+    (("--keep-unverified",), "--keep-unverified"),
+])
+def test_solve_options_that_do_not_apply_are_errors(repo_root, argv, option):
+    study = repo_root / "studies" / "handheld-scanner-hinge.yaml"
+    err = _one_line_2(*_run("solve", study, "--out", "/nonexistent-never-written", *argv))
+    assert f"{option}:" in err

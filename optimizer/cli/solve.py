@@ -167,8 +167,19 @@ def _thickness_bound(problem):
     return ProblemEvaluator(problem, prune=False), problem.constraint_names.index("total_thickness")
 
 
+def _not_applicable(args: argparse.Namespace) -> None:
+    """Refuse options the run would not use (one line naming the option, exit 2)."""
+    if args.method == "exhaustive" and args.budget is not None:
+        raise InputError("the exhaustive search evaluates every candidate and has no budget; --budget applies "
+                         "to the evolutionary and auto methods", "--budget")
+    if getattr(args, "keep_unverified", False) and not getattr(args, "verify", False):
+        raise InputError("applies only with --verify", "--keep-unverified")
+
+
 def run(args: argparse.Namespace) -> int:
     from strainline.optimizer.search.front import CAUTION
+
+    _not_applicable(args)
     from strainline.optimizer.outputs.frontfiles import format_table, write_outputs
 
     from strainline.optimizer.cli.progress import Phases
