@@ -216,3 +216,28 @@ def test_solve_options_that_do_not_apply_are_errors(repo_root, argv, option):
     study = repo_root / "studies" / "handheld-scanner-hinge.yaml"
     err = _one_line_2(*_run("solve", study, "--out", "/nonexistent-never-written", *argv))
     assert f"{option}:" in err
+
+
+@settings(max_examples=60, deadline=None, derandomize=True)
+@given(st.one_of(st.floats(min_value=1e-3, max_value=1e5), st.floats().map(float)),
+       st.sampled_from(["bottom", "top"]), st.sampled_from(["install", "dynamic"]))
+def test_fuzz_bend_radius_no_nan_no_warning_no_exit_1(radius, inside, use):
+    from pathlib import Path
+
+    stackup = sorted((Path(__file__).resolve().parents[1] / "studies" / "stackups").glob("*.yaml"))[0]
+    code, out, err = _run("bend", stackup, "--inner-radius-mm", repr(radius), "--inside", inside, "--use", use,
+                          "--json")
+    assert code in (0, 2), (radius, err)
+    if code == 0:
+        assert "NaN" not in out and "Infinity" not in out
+        d = json.loads(out)
+        assert math.isfinite(d["neutral_axis_um"]) and math.isfinite(d["peak_copper_strain_pct"])
+    else:
+        assert err.count("\n") == 1 and "--inner-radius-mm" in err
+
+
+@settings(max_examples=80, deadline=None, derandomize=True)
+@given(st.sampled_from(["--budget", "--seed", "--workers", "--method", "--out"]), NUMBER_TEXT)
+def test_fuzz_solve_option_texts_are_one_line_errors(option, text):
+    code, out, err = _run("solve", "/nonexistent/study.yaml", option, text, "--quiet")
+    assert code == 2 and out == "" and err.count("\n") == 1 and "Traceback" not in err, (option, text, err)
