@@ -95,6 +95,13 @@ def register(subparsers) -> argparse.ArgumentParser:
     p.add_argument("--field-solve", action="store_true",
                    help="also solve the cross-section with the 2-D field solver (with --target-ohm: "
                         "the field-solved width); adds the object 'field'")
+    p.add_argument("--hatch-pitch-um", type=float, default=None, metavar="P",
+                   help="also solve the line over a hatched reference plane of this pitch (3-D field "
+                        "solver; with --hatch-width-um); adds the object 'hatch'")
+    p.add_argument("--hatch-width-um", type=float, default=None, metavar="W",
+                   help="copper width of the hatch lines, um")
+    p.add_argument("--hatch-angle-deg", type=float, default=None, metavar="A",
+                   help="hatch angle to the trace: 45 (default) or 90 degrees")
     return p
 
 
@@ -329,8 +336,23 @@ def run(args: argparse.Namespace) -> int:
         from strainline.optimizer.search.verify import field_for_line, field_text
         d["field"] = field_for_line(kind, geom, args.target_ohm, d.get("z_diff_ohm", d["z0_ohm"]),
                                     (WIDTH_MIN_UM, WIDTH_MAX_UM))
+    from strainline.optimizer.search.hatchline import (
+        hatch_for_line,
+        hatch_from_args,
+        hatch_text,
+    )
+    hatch = hatch_from_args(args.hatch_pitch_um, args.hatch_width_um, args.hatch_angle_deg,
+                            float(geom.thickness_m))
+    if hatch is not None:
+        from strainline.optimizer.search.fieldcache import FieldCache
+        cache = FieldCache()
+        try:
+            d["hatch"] = hatch_for_line(kind, geom, hatch, args.target_ohm, freq_hz, cache)
+        finally:
+            cache.close()
     if args.json:
         print(json.dumps(d, indent=2))
     else:
-        print(format_text(d) + ("\n" + field_text(d["field"]) if args.field_solve else ""))
+        print(format_text(d) + ("\n" + field_text(d["field"]) if args.field_solve else "")
+              + ("\n" + hatch_text(d["hatch"]) if hatch is not None else ""))
     return 0
