@@ -88,3 +88,12 @@ def test_study_problem_pickles_and_two_workers_equal_one():
     two = exhaustive(ev, pb.space.sizes, pb.n_obj, chunk=5000, workers=2)
     same_archive(one.archive, two.archive)
     assert two.info["workers"] == 2 and two.info["rate_per_s"] > 0
+
+
+def test_short_pieces_gathered_into_batches_give_the_same_archive(toy_serial):
+    from strainline.optimizer.search.exhaustive import exhaustive_pieces
+
+    toy, ref = toy_serial
+    cuts = np.unique(np.concatenate([[0, 9**5], np.random.default_rng(1).integers(0, 9**5, 3000)]))
+    pieces = [(int(a), int(b)) for a, b in zip(cuts[:-1], cuts[1:])]
+    same_archive(exhaustive_pieces(toy, toy.sizes, 3, pieces, chunk=2048), ref)

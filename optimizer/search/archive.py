@@ -144,10 +144,12 @@ class Archive:
         order = np.argsort(keys, kind="stable")        # a canonical order, whatever the split
         self._sample_keys, self.sample_F = keys[order], Fs[order]
 
-    def add(self, X: np.ndarray, F: np.ndarray, G: np.ndarray, start: int | None = None) -> int:
+    def add(self, X: np.ndarray, F: np.ndarray, G: np.ndarray, start: int | None = None,
+            index: np.ndarray | None = None) -> int:
         """Merge a batch; return how many archive points changed (0 = no improvement).
 
-        Row ``i`` has index ``start + i`` (default: the stream position, ``seen + i``).
+        Row ``i`` has index ``start + i`` (default: the stream position, ``seen + i``), or
+        ``index[i]`` (increasing, above every index added before).
         """
         X = np.asarray(X, np.int64)
         F = np.asarray(F, float)
@@ -172,14 +174,15 @@ class Archive:
                 k = int(np.argmin(cv))                  # the first of equal violations
                 if cv[k] < self.near_cv:
                     self.near_cv, self.near_X, self.near_G = float(cv[k]), X[k].copy(), G[k].copy()
-                    self.near_index = start + k
+                    self.near_index = start + k if index is None else int(index[k])
         else:
             feas = np.all(np.isfinite(F), axis=1)
         rows = np.flatnonzero(feas)
         self.feasible += len(rows)
         if not len(rows):
             return 0
-        Fb, Xb, Ib = F[rows], X[rows], rows.astype(np.int64) + start
+        Fb, Xb = F[rows], X[rows]
+        Ib = rows.astype(np.int64) + start if index is None else np.asarray(index, np.int64)[rows]
         if self.sample_size:
             self._sample(Fb, _hash64(Ib))
         # quick pre-screen against the current front (most points of a big batch are dominated;

@@ -28,7 +28,7 @@ from strainline.optimizer.search.archive import (  # noqa: F401  (re-exported)
     Archive, SearchResult, _dominated_by, additive_epsilon, hypervolume, nondominated_mask, normalize)
 from strainline.optimizer.search.evolutionary import evolutionary, random_search  # noqa: F401
 from strainline.optimizer.search.exhaustive import (  # noqa: F401  (re-exported)
-    CHUNK, Evaluator, _ChunkDigits, _digits, exhaustive_range, space_size)
+    CHUNK, Evaluator, _ChunkDigits, _digits, exhaustive_pieces, exhaustive_range, space_size)
 from strainline.optimizer.search.parallel import default_workers, run_ranges
 
 #: ``auto`` enumerates when the projected wall time is at most this (seconds).
@@ -64,13 +64,17 @@ def _probe(evaluate: Evaluator, sizes: np.ndarray, n_obj: int, ranges: list[tupl
     done = 0
     left = list(ranges)
     while left and (time.perf_counter() - t0 < PROBE_S or done == 0):
-        a, b = left[0]
-        e = min(b, (a // step + 1) * step)
-        exhaustive_range(evaluate, sizes, n_obj, a, e, chunk, archive=arch)
-        done += e - a
-        left[0] = (e, b)
-        if e >= b:
-            left.pop(0)
+        pieces, held = [], 0
+        while left and held < step:             # about one chunk, on the chunk grid
+            a, b = left[0]
+            e = min(b, (a // step + 1) * step, a + step - held)
+            pieces.append((a, e))
+            held += e - a
+            left[0] = (e, b)
+            if e >= b:
+                left.pop(0)
+        exhaustive_pieces(evaluate, sizes, n_obj, pieces, chunk, archive=arch)
+        done += held
         if progress is not None:
             progress.update(done, total)
     dt = max(time.perf_counter() - t0, 1e-9)

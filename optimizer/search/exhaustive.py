@@ -118,3 +118,37 @@ def split_ranges(start: int, stop: int, parts: int, align: int) -> list[tuple[in
             bounds.append(b)
     bounds.append(stop)
     return [(a, b) for a, b in zip(bounds[:-1], bounds[1:]) if b > a]
+
+
+def exhaustive_pieces(evaluate: Evaluator, sizes: np.ndarray, n_obj: int, pieces: list[tuple[int, int]],
+                      chunk: int = CHUNK, progress: Any = None, archive: Archive | None = None) -> Archive:
+    """:func:`exhaustive_range` over increasing disjoint ``pieces``; short pieces (e.g. the blocks a
+    bound leaves) are gathered into batches of about ``chunk`` candidates, so each evaluation call
+    stays large."""
+    sizes = np.asarray(sizes, np.int64)
+    arch = archive if archive is not None else Archive(n_obj, sizes.size)
+    buf: list[np.ndarray] = []
+    held = 0
+
+    def flush() -> None:
+        nonlocal buf, held
+        if held:
+            idx = np.concatenate(buf)
+            x = _digits(idx, sizes)
+            F, G = evaluate(x)
+            arch.add(x, F, G, index=idx)
+            if progress is not None:
+                progress(held)
+        buf, held = [], 0
+
+    for a, b in pieces:
+        if b - a >= chunk:
+            flush()
+            exhaustive_range(evaluate, sizes, n_obj, a, b, chunk, progress, arch)
+            continue
+        buf.append(np.arange(a, b, dtype=np.int64))
+        held += b - a
+        if held >= chunk:
+            flush()
+    flush()
+    return arch

@@ -20,7 +20,7 @@ from typing import Any
 import numpy as np
 
 from strainline.optimizer.search.archive import Archive
-from strainline.optimizer.search.exhaustive import CHUNK, _ChunkDigits, exhaustive_range, split_ranges
+from strainline.optimizer.search.exhaustive import CHUNK, _ChunkDigits, exhaustive_pieces, split_ranges
 
 #: Tasks per worker: enough for the progress bar and for balancing uneven ranges.
 TASKS_PER_WORKER = 6
@@ -56,10 +56,7 @@ def _init_worker(evaluate: Any) -> None:
 
 
 def _do_task(evaluate: Any, sizes: np.ndarray, n_obj: int, pieces: list[tuple[int, int]], chunk: int) -> Archive:
-    arch = Archive(n_obj, sizes.size)
-    for a, b in pieces:                      # increasing: the archive's order contract holds
-        exhaustive_range(evaluate, sizes, n_obj, a, b, chunk, archive=arch)
-    return arch
+    return exhaustive_pieces(evaluate, sizes, n_obj, pieces, chunk)     # increasing pieces
 
 
 def _local_task(sizes: np.ndarray, n_obj: int, pieces: list[tuple[int, int]], chunk: int) -> Archive:
@@ -132,9 +129,7 @@ def run_ranges(evaluate: Callable, sizes: np.ndarray, n_obj: int, start: int, st
     if dask_address:
         return _run_dask(evaluate, sizes, n_obj, ranges, dask_address, progress, chunk, align, arch)
     if workers <= 1 or sum(b - a for a, b in ranges) <= align:
-        for a, b in ranges:
-            part = exhaustive_range(evaluate, sizes, n_obj, a, b, chunk, progress)
-            arch.merge(part)
+        arch.merge(exhaustive_pieces(evaluate, sizes, n_obj, ranges, chunk, progress))
         return arch, 1
     tasks = make_tasks(ranges, workers * TASKS_PER_WORKER, align)
     with ProcessPoolExecutor(max_workers=workers, initializer=_init_worker, initargs=(evaluate,)) as pool:
