@@ -236,6 +236,9 @@ class LimitsModel(Base):
     loss_db_per_m: K.num(0.0, 1e6, lo_open=True, description="maximum line loss at the frequency, dB/m") = None
     elongation_fraction: K.num(0.0, 1.0, lo_open=True, description=(
         "share of each dielectric, adhesive and cover's catalog elongation the bend may use (default 0.5)")) = 0.5
+    min_yield_pct: K.num(0.0, 100.0, lo_open=True, description=(
+        "least impedance yield, percent: share of builds inside the impedance tolerance under the catalog's "
+        "fabrication tolerances (quasi-Monte Carlo)")) = None
 
 
 class SearchModel(Base):
@@ -264,7 +267,7 @@ class StudyModel(Base):
     stack: StackModel
     limits: LimitsModel = LimitsModel()
     objectives: K.choice_list(S.OBJECTIVES, description="minimized: peak_strain, signal_strain, thickness, loss; "
-                              "maximized: life") = ("peak_strain", "thickness")
+                              "maximized: life, yield (impedance yield)") = ("peak_strain", "thickness")
     search: SearchModel = SearchModel()
 
 

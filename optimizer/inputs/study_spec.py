@@ -28,7 +28,7 @@ Region = Literal["bonded", "unbonded"]
 Order = Literal["free", "fixed"]
 Method = Literal["auto", "exhaustive", "evolutionary"]
 Impedance = Literal["field", "closed-form"]
-Objective = Literal["peak_strain", "signal_strain", "thickness", "loss", "life"]
+Objective = Literal["peak_strain", "signal_strain", "thickness", "loss", "life", "yield"]
 OBJECTIVES: tuple[str, ...] = get_args(Objective)
 #: Objective name -> output key (edge units) in front.json.
 OBJECTIVE_KEYS: dict[str, str] = {
@@ -37,6 +37,7 @@ OBJECTIVE_KEYS: dict[str, str] = {
     "thickness": "total_thickness_um",
     "loss": "loss_db_per_m",
     "life": "cycles_to_failure",
+    "yield": "yield_shortfall_pct",
 }
 #: Resolution of each objective on the front, in its front.json unit (life: log10 cycles).
 #: Designs whose objectives agree to this grid are equal for the search, so the front is not
@@ -48,6 +49,7 @@ OBJECTIVE_RESOLUTION: dict[str, float] = {
     "thickness": 0.1,        # um
     "loss": 0.01,            # dB/m
     "life": 0.01,            # log10 cycles (2.3 % in cycles; the equation is good to an order of magnitude)
+    "yield": 0.1,            # percent of builds outside the impedance band (100 - impedance yield)
 }
 NONE = "none"
 
@@ -62,7 +64,7 @@ _STACK_KEYS = (
     "ground_coverage", "signal_coverage",
 )
 _LIMIT_KEYS = ("total_thickness_um", "peak_strain_pct", "signal_strain_pct", "min_cycles", "loss_db_per_m",
-               "elongation_fraction")
+               "elongation_fraction", "min_yield_pct")
 _SEARCH_KEYS = ("method", "budget", "seed", "population", "impedance")
 #: Fewest copper layers each line type needs: an outer line has its plane in the adjacent copper
 #: (conductor-backed coplanar included); a stripline sits on an inner layer between two planes.
@@ -133,6 +135,9 @@ class Limits:
     loss_db_per_m: float | None = None
     #: Share of each dielectric/adhesive/cover's catalog elongation the bend may use, (0, 1].
     elongation_fraction: float = 0.5
+    #: Least impedance yield (share of builds inside the impedance tolerance under the catalog's
+    #: fabrication tolerances), percent; None = not a limit.
+    min_yield_pct: float | None = None
 
 
 @dataclass(frozen=True)

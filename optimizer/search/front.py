@@ -155,6 +155,10 @@ def build_front(problem: Problem, result: SearchResult, catalog: Any, seed: int,
         exact = {"peak_strain": ev.peak_strain[j] * 100.0, "signal_strain": ev.signal_strain[j] * 100.0,
                  "thickness": ev.total_thickness_m[j] / UM, "loss": tb.loss_db_per_m[row],
                  "life": ev.cycles[j]}
+        want_yield = "yield" in problem.objectives or study.limits.min_yield_pct is not None
+        yres = problem.row_yield() if want_yield else None
+        if yres is not None:
+            exact["yield"] = 100.0 * (1.0 - yres.yield_frac[row])
         objectives = {key: _num(exact[o]) for o, key in zip(problem.objectives, keys)}
         line = {
             "type": kind,
@@ -188,6 +192,15 @@ def build_front(problem: Problem, result: SearchResult, catalog: Any, seed: int,
         from strainline.optimizer.search.linetable import closed_form_finding, line_model_record
         line.update(line_model_record(tb, row))
         findings = list(rep["findings"])
+        if yres is not None:
+            from strainline.optimizer.search.yieldcalc import yield_finding
+            line["impedance_yield"] = {
+                "yield_pct": _num(100.0 * yres.yield_frac[row]), "stderr_pct": _num(100.0 * yres.stderr[row]),
+                "samples": int(yres.samples), "sigma_pct": _num(100.0 * yres.sigma_rel[row]),
+                "variance_share": {n: _num(float(v)) for n, v in zip(yres.names, yres.shares[row])},
+                "dominant": yres.names[int(yres.dominant[row])]}
+            findings.append(_finding("impedance-yield", "info", yield_finding(yres, row),
+                                     "quasi-Monte Carlo over the catalog's fabrication tolerances"))
         cf_note = closed_form_finding(tb, row)
         if cf_note:
             findings.append(_finding("line-method", "info", cf_note, "strainline's 2-D field solver on this candidate's layers"))

@@ -35,6 +35,7 @@ Constraint columns (each is a relative excess over its limit, so 0.1 means 10 % 
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from typing import Any
 
 import numpy as np
 
@@ -95,6 +96,8 @@ class Problem:
     #: because the material limits need every layer's strain about its own leaf's axis
     #: (:meth:`copper_strains` still serves both regions and is tested against ``bend_strains``).
     fast_unbonded: bool = False
+    #: The catalog the table was built with (fabrication tolerances for the impedance yield).
+    catalog: Any = None
 
     @property
     def n_var(self) -> int:
@@ -198,7 +201,25 @@ class Problem:
         }
         if study.line.type in GAP_KINDS:
             out["gap_space"] = (tb.min_space_m[row] - tb.gap_m[row]) / tb.min_space_m[row]
+        if study.limits.min_yield_pct is not None:
+            out["yield"] = 1.0 - 100.0 * self.row_yield().yield_frac[row] / study.limits.min_yield_pct
         return out
+
+    def row_yield(self) -> Any:
+        """Impedance yield of every line-table row (:mod:`.yieldcalc`), recomputed when the table's
+        widths or corrections change (the field refinement updates rows)."""
+        import hashlib
+
+        from strainline.optimizer.search.yieldcalc import table_yield
+
+        tb = self.table
+        h = hashlib.sha1(np.ascontiguousarray(tb.width_m).tobytes()
+                         + np.ascontiguousarray(tb.r_field if tb.r_field is not None else 0.0).tobytes()).hexdigest()
+        got = getattr(self, "_yield_cache", None)
+        if got is None or got[0] != h:
+            got = (h, table_yield(tb, self.space, self.catalog, seed=int(self.space.study.search.seed)))
+            self._yield_cache = got
+        return got[1]
 
     def _evaluate(self, x: np.ndarray, want_cycles: bool = False,
                   slots: dict[str, np.ndarray] | None = None) -> Evaluation:
@@ -246,6 +267,8 @@ class Problem:
                 F[:, k] = tb.loss_db_per_m[row]
             elif o == "life":
                 F[:, k] = -np.log10(np.maximum(cycles, 1e-300))
+            elif o == "yield":
+                F[:, k] = 100.0 * (1.0 - self.row_yield().yield_frac[row])
         lim = study.limits
         G = np.empty((n, self.n_con), order="F")
         line_g = self._line_constraints(row)
@@ -315,8 +338,11 @@ def build_problem(space: Space, catalog) -> Problem:
         a = space.arr
         allowed = engelmaier_strain_range(lim.min_cycles, a["cu_Df"], a["cu_Su"], a["cu_E"])
         names.append("fatigue_life")
+    if lim.min_yield_pct is not None:
+        names.append("yield")
     names += material.names(space)
     pb = Problem(space, table, tuple(study.objectives), names, allowed)
+    pb.catalog = catalog
     pb.fast = _fast_tables(pb)
     return pb
 
@@ -345,5 +371,6 @@ CONSTRAINT_TEXT = {
     "signal_strain": "signal copper strain limit",
     "loss": "loss limit",
     "fatigue_life": "required fatigue life",
+    "yield": "impedance yield at least limits.min_yield_pct under the fabrication tolerances",
     **material.TEXT,
 }
