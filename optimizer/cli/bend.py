@@ -152,7 +152,8 @@ def run(args: argparse.Namespace) -> int:
     stackup = load_stackup(args.stackup, catalog)
     rep = bend_report(stackup, args.inner_radius_mm, inside=args.inside, motion=args.motion,
                       plane_strain=args.plane_strain, plastic=args.plastic, use=args.use, cycles=args.cycles,
-                      elongation_fraction=args.elongation_fraction, allow_uncovered=args.allow_uncovered)
+                      elongation_fraction=args.elongation_fraction, allow_uncovered=args.allow_uncovered,
+                      catalog=catalog)
     if args.json:
         print(json.dumps(rep, indent=2, allow_nan=False))
     else:

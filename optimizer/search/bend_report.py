@@ -84,7 +84,7 @@ def _axes(stackup: Stackup, y_na: np.ndarray, leaf_r: np.ndarray, top: np.ndarra
 def bend_report(stackup: Stackup, inner_radius_mm: float, inside: str = "bottom", motion: str = "flat-to-bent",
                 plane_strain: bool = False, plastic: bool | None = None, use: str = "install",
                 cycles: float | None = None, elongation_fraction: float = rules.ELONGATION_FRACTION,
-                allow_uncovered: bool = False) -> dict[str, Any]:
+                allow_uncovered: bool = False, catalog: Any = None) -> dict[str, Any]:
     """The ``strainline bend --json`` object for one stackup.
 
     Parameters
@@ -109,6 +109,8 @@ def bend_report(stackup: Stackup, inner_radius_mm: float, inside: str = "bottom"
         Share of each dielectric's elongation at break allowed (``limits`` block).
     allow_uncovered : bool
         Waive the rule that every leaf face of a dynamic bend carries a cover.
+    catalog : Catalog, optional
+        Where the layers' elongation and minimum bend radius are looked up (default: the built-in one).
 
     Returns
     -------
@@ -136,7 +138,7 @@ def bend_report(stackup: Stackup, inner_radius_mm: float, inside: str = "bottom"
         raise InputError(f"{elongation_fraction!r} is out of range; allowed (0, 1]", "elongation_fraction")
     r = r_mm * MM
     ib = inside == "bottom"
-    stackup = with_catalog_limits(stackup)
+    stackup = with_catalog_limits(stackup, catalog)
     a = stackup.arrays(plane_strain)
     leaf = None if a.bonded else a.leaf
     s = bending.bend_strains(a.thickness_m, a.modulus_pa, r, ib, leaf)
@@ -289,17 +291,15 @@ def _plastic_shift(leaves: list[dict[str, Any]], p_na: np.ndarray, stackup: Stac
     return {"peak_shift_pct": 100 * pk, "axis_shift_pct": 100 * axis}
 
 
-def with_catalog_limits(stackup: Stackup) -> Stackup:
+def with_catalog_limits(stackup: Stackup, cat: Any = None) -> Stackup:
     """The stackup with each catalog dielectric's elongation and minimum bend radius filled in
     (layers that already carry them, and inline materials, are left as they are)."""
     from dataclasses import replace
 
-    from strainline.optimizer.inputs.catalog import load_catalog
+    if cat is None:
+        from strainline.optimizer.inputs.catalog import load_catalog
 
-    try:
         cat = load_catalog()
-    except Exception:   # the bend command reads its own catalog; without one there is nothing to add
-        return stackup
     out = []
     for x in stackup.layers:
         d = cat.dielectrics.get(x.material) if x.kind == "dielectric" else None

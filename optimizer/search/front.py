@@ -143,7 +143,7 @@ def build_front(problem: Problem, result: SearchResult, catalog: Any, seed: int,
         rep = bend_report(st, study.bend.inner_radius_mm, study.bend.inside, study.bend.motion,
                           study.bend.plane_strain, None, study.bend.use,
                           study.limits.min_cycles if study.bend.use == "dynamic" else None,
-                          elongation_fraction(study), allow_uncovered(study))
+                          elongation_fraction(study), allow_uncovered(study), catalog)
         slots = sp.slots(x.reshape(1, -1))
         sig = int(slots["signal"][0])
         row = int(ev.line_row[j])
