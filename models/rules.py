@@ -189,9 +189,10 @@ def bend_findings(stackup: Stackup, inner_radius_m: float, use: str = "install",
     -------
     tuple of Finding
         Ratio checks per bonded leaf (IPC-2223 recalled ratios; common-practice 10x / 25x), copper
-        strain against ~2 % for an install bend, elastic results above yield, tight-bend validity,
-        glass-reinforced layers, electrodeposited copper in a dynamic bend and the declared
-        bend-area features.
+        strain against ~2 % for an install bend, elastic results above yield (info; the plastic
+        comparison is the caller's), tight-bend validity, electrodeposited copper in a dynamic bend
+        and the declared bend-area features. Every material's own limit (dielectric strain, cover
+        radius, bare copper, glass) is :func:`material_findings`.
     """
     if use not in USES:
         raise ValueError(f"use {use!r} is not one of {list(USES)}")
