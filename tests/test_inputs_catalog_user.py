@@ -105,3 +105,13 @@ def test_recorded_entries_rebuild_the_same_records():
     assert again.fabrication.min_trace_m["1/3oz"] == cat.fabrication.min_trace_m["1/3oz"]
     with pytest.raises(CatalogError, match=r"front.json: catalog.entries: dielectrics.lcp-film.dk: must be"):
         catalog_from_dict({**part, "dielectrics": {"lcp-film": {**part["dielectrics"]["lcp-film"], "dk": -1}}})
+
+
+def test_catalog_listing_says_what_the_user_catalog_did(run_cli, tmp_path):
+    folder = _user(tmp_path, {"materials.yaml": {"mode": "add", "dielectrics": {"fab-film": FILM}}})
+    code, out, err = run_cli("catalog", "--catalog", folder, "--section", "dielectrics")
+    assert code == 0, err
+    first = out.splitlines()[0]
+    assert first == (f"Catalog {folder}: materials.yaml added to the built-in entries; copper.yaml built-in "
+                     "(not in the folder); fabrication.yaml built-in (not in the folder)")
+    assert "fab-film" in out and "lcp-film" in out

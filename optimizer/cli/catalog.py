@@ -41,7 +41,8 @@ def register(subparsers: Any) -> argparse.ArgumentParser:
     p.add_argument(
         "--catalog",
         metavar="DIR",
-        help="a folder with materials.yaml, copper.yaml and fabrication.yaml (default: the shipped catalog)",
+        help="a folder with materials.yaml, copper.yaml and fabrication.yaml (default: the shipped catalog); "
+        "a file saying 'mode: add' adds its entries to the built-in ones",
     )
     return p
 
@@ -59,6 +60,11 @@ def run(args: argparse.Namespace) -> int:
         out["caution"] = CAUTION
         print(json.dumps(out, indent=2))
     else:
+        if args.catalog is not None:   # say what the user catalog did to the built-in one
+            said = {"added": "added to the built-in entries", "replaced": "replaces the built-in file",
+                    "built-in": "built-in (not in the folder)"}
+            print(f"Catalog {args.catalog}: " + "; ".join(f"{name} {said.get(how, how)}"
+                                                        for name, how in catalog.origin.items()) + "\n")
         print(render_text(catalog, sections))
     return 0
 
