@@ -15,7 +15,6 @@ from collections.abc import Callable
 from typing import Any
 
 import numpy as np
-
 from strainline.optimizer.search.fieldcache import FieldCache
 from strainline.optimizer.search.fieldsolve import SolveStats, solve_sections
 from strainline.optimizer.search.fieldtable import _ln_ratio, distinct_rows, sections_of
@@ -78,7 +77,34 @@ def refine_rows(tb: Any, rows: np.ndarray, *, workers: int | None = None, dask_a
         w = np.where(np.isfinite(w), w, tb.width_m[rows])
         tb.set_rows(rows, w, r_rows, ok)
     tb.exact[rows] = True
+    if tb.correction is not None:
+        _recorrect(tb, rows[first][good], w_first[good], r_first[good])
     return int(first.size)
+
+
+def _recorrect(tb: Any, pts: np.ndarray, widths: np.ndarray, r_solved: np.ndarray) -> None:
+    """Add direct solves (rows ``pts`` at ``widths``) to the correction and re-solve every row not
+    solved directly with it (the correction learns where the search looks)."""
+    from strainline.optimizer.search.fieldtable import corrected_widths, features
+
+    if pts.size == 0:
+        return
+    sub = {k: v[pts] for k, v in tb.bands.items()}
+    X = features(tb.kind, widths, tb.geometry.take(pts), sub)
+    tb.correction = tb.correction.refit(X, r_solved)
+    rest = np.flatnonzero(~tb.exact)
+    if rest.size == 0:
+        return
+    first, inv = distinct_rows(tb.kind, tb.geometry.take(rest), {k: v[rest] for k, v in tb.bands.items()})
+    u = rest[first]
+    gU = tb.geometry.take(u)
+    bU = {k: v[u] for k, v in tb.bands.items()}
+    lo = tb.width_lo_m[u]
+    hi = np.maximum(tb.width_hi_m[u], lo * (1 + 1e-9))
+    w, ok = corrected_widths(tb.kind, tb.correction, gU, bU, tb.target_ohm, lo, hi, tb.width_m[u],
+                             lambda ww: tb.closed_form(u, ww))
+    r = tb.correction(features(tb.kind, w, gU, bU))
+    tb.set_rows(rest, w[inv], r[inv], ok[inv])
 
 
 def _refresh(problem: Any) -> None:
@@ -181,4 +207,4 @@ def table_summary(tb: Any) -> dict[str, Any]:
     return out
 
 
-__all__ = ["refine_rows", "search_on_direct_rows", "table_summary", "MAX_SEARCHES"]
+__all__ = ["MAX_SEARCHES", "refine_rows", "search_on_direct_rows", "table_summary"]

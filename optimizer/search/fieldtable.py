@@ -42,6 +42,8 @@ from strainline.optimizer.search.fieldsolve import (
     solve_sections,
 )
 
+#: Tables with at most this many distinct cross-sections are field-solved directly, row by row.
+DIRECT_MAX = 24
 #: The held-out error the correction must reach, percent of the impedance.
 GOAL_PCT = 0.25
 #: Fitted points of the first round, held-out points per round, most held-out rounds. The
@@ -87,12 +89,20 @@ class Correction:
     X: np.ndarray
     Y: np.ndarray
     model: object | None
+    feats_range: np.ndarray | None = None     # (2, k) raw feature range the scaling uses
 
     def __call__(self, feats: np.ndarray) -> np.ndarray:
+        """ln-corrections at raw features, clipped to the range seen in the fit (plus 1 %): an
+        interpolant far outside its points is never trusted beyond what was measured."""
         Xn = self.scale(feats)
         if self.model is None:
             return np.broadcast_to(self.Y.mean(axis=0), (Xn.shape[0], self.Y.shape[1])).copy()
-        return np.asarray(self.model(Xn))
+        lo, hi = self.Y.min(axis=0) - 0.01, self.Y.max(axis=0) + 0.01
+        return np.clip(np.asarray(self.model(Xn)), lo, hi)
+
+    def refit(self, X: np.ndarray, Y: np.ndarray) -> Correction:
+        """The correction with more points (same feature scaling)."""
+        return fit_correction(self.feats_range, np.concatenate([self.X, X]), np.concatenate([self.Y, Y]))
 
     def scale(self, feats: np.ndarray) -> np.ndarray:
         return (feats[:, self.keep] - self.lo) / self.span
@@ -110,8 +120,9 @@ def fit_correction(feats_all: np.ndarray, X: np.ndarray, Y: np.ndarray) -> Corre
     lo = feats_all.min(axis=0)
     hi = feats_all.max(axis=0)
     keep = (hi - lo) > 1e-9 * np.maximum(1.0, np.abs(hi))
+    rng = np.stack([feats_all.min(axis=0), feats_all.max(axis=0)])
     lo, span = lo[keep], (hi - lo)[keep]
-    corr = Correction(lo, span, keep, X, Y, None)
+    corr = Correction(lo, span, keep, X, Y, None, rng)
     Xn = corr.scale(X)
     _, first = np.unique(np.round(Xn, 9), axis=0, return_index=True)
     first = np.sort(first)
@@ -217,6 +228,32 @@ def _farthest(Xn: np.ndarray, chosen: np.ndarray, count: int) -> list[int]:
     return picks
 
 
+def corrected_widths(kind: str, corr: Correction, g, bands: dict[str, np.ndarray], target: float,
+                     lo_w: np.ndarray, hi_w: np.ndarray, w: np.ndarray, closed_z) -> tuple[np.ndarray, np.ndarray]:
+    """Widths for which closed form x correction gives the target (fixed point over the
+    correction's width dependence, at most three closed-form width solves); rows with no root in
+    range take the better end. ``closed_z(width) -> {"z": ...}`` for the same rows."""
+    from strainline.models.lines import solve_width
+
+    ok = np.zeros(w.shape, bool)
+    for _ in range(3):
+        r = corr(features(kind, w, g, bands))
+        wn, ok = solve_width(kind, target * np.exp(-r[:, 0]), g, lo_w, hi_w)
+        ok = np.asarray(ok, bool)
+        if not ok.all():
+            ends = []
+            for we in (lo_w, hi_w):
+                re = corr(features(kind, we, g, bands))
+                ends.append(np.abs(closed_z(we)["z"] * np.exp(re[:, 0]) / target - 1))
+            wn = np.where(ok, wn, np.where(ends[0] <= ends[1], lo_w, hi_w))
+        wn = np.where(np.isfinite(wn), wn, lo_w)
+        moved = np.max(np.abs(wn / w - 1)) if w.size else 0.0
+        w = wn
+        if moved < 1e-6:
+            break
+    return w, ok
+
+
 def _ln_ratio(a: np.ndarray, b: np.ndarray) -> np.ndarray:
     return np.log((np.asarray(a, float) + 1e-12) / (np.asarray(b, float) + 1e-12))
 
@@ -262,8 +299,6 @@ def field_values(kind: str, g, bands: dict[str, np.ndarray], target: float, wlo:
     """
     import time
 
-    from strainline.models.lines import solve_width
-
     t0 = time.perf_counter()
     stats = SolveStats()
     first, inv = distinct_rows(kind, g, bands)
@@ -305,23 +340,8 @@ def field_values(kind: str, g, bands: dict[str, np.ndarray], target: float, wlo:
     corr = corr0
     while True:
         corr = fit_correction(feats_all, np.concatenate(X), np.concatenate(Y))
-        for _ in range(3):
-            r = corr(features(kind, w, gU, bU))
-            tgt = target * np.exp(-r[:, 0])
-            wn, ok = solve_width(kind, tgt, gU, lo_w, hi_w)
-            ok = np.asarray(ok, bool)
-            if not ok.all():
-                # no root in range: the better end of the range for the corrected impedance
-                ends = []
-                for we in (lo_w, hi_w):
-                    re = corr(features(kind, we, gU, bU))
-                    ends.append(np.abs(closed_form(first, we)["z"] * np.exp(re[:, 0]) / target - 1))
-                wn = np.where(ok, wn, np.where(ends[0] <= ends[1], lo_w, hi_w))
-            wn = np.where(np.isfinite(wn), wn, lo_w)
-            moved = np.max(np.abs(wn / w - 1))
-            w = wn
-            if moved < 1e-6:
-                break
+        w, ok = corrected_widths(kind, corr, gU, bU, target, lo_w, hi_w, w,
+                                 lambda ww, rows=first: closed_form(rows, ww))
         if info.rounds >= MAX_ROUNDS or (info.goal_met and info.rounds > 0):
             break
         fresh = [u for u in range(U) if not any(abs(w[u] / x - 1) < 1e-4 for x in solved_w.get(u, []))]

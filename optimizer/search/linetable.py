@@ -315,16 +315,25 @@ def build_line_table(space: Space, catalog, impedance: str | None = None) -> Lin
     w = np.where(ok, w, np.where(e_lo <= e_hi, wlo, whi_s))
     w_cf = np.where(np.isfinite(w), w, wlo)
     info = corr = None
+    direct = False
     if mode == "field":
         from strainline.optimizer.search.fieldcache import FieldCache
-        from strainline.optimizer.search.fieldtable import field_values
+        from strainline.optimizer.search.fieldtable import DIRECT_MAX, FieldInfo, distinct_rows, field_values
 
+        n_distinct = int(distinct_rows(kind, geom, bands)[0].size)
+        direct = n_distinct <= DIRECT_MAX
         cache = FieldCache(enabled=bool(_OPTIONS.get("cache", True)))
         try:
-            vals, info, corr = field_values(kind, geom, bands, target, wlo, whi_s, w_cf, closed_form,
-                                            workers=_OPTIONS.get("workers"),
-                                            dask_address=_OPTIONS.get("dask_address"), cache=cache,
-                                            seed=int(getattr(study.search, "seed", 0) or 0))
+            if direct:      # few cross-sections: every one field-solved directly (below)
+                vals = {"width_m": w_cf, "ok": ok, "r": np.zeros((total, 3))}
+                info = FieldInfo(method="direct layered 2-D field solves of every distinct cross-section",
+                                 rows=total, distinct_sections=n_distinct, holdout_max_error_pct=0.0,
+                                 goal_met=True)
+            else:
+                vals, info, corr = field_values(kind, geom, bands, target, wlo, whi_s, w_cf, closed_form,
+                                                workers=_OPTIONS.get("workers"),
+                                                dask_address=_OPTIONS.get("dask_address"), cache=cache,
+                                                seed=int(getattr(study.search, "seed", 0) or 0))
         finally:
             cache.close()
         w = vals["width_m"]
@@ -346,4 +355,19 @@ def build_line_table(space: Space, catalog, impedance: str | None = None) -> Lin
         target_ohm=float(target), r_field=np.zeros((total, 3)), exact=np.zeros(total, bool),
     )
     tb.set_rows(all_rows, w, r, ok)
+    if direct:
+        import time
+
+        from strainline.optimizer.search.fieldrefine import refine_rows
+        from strainline.optimizer.search.fieldsolve import SolveStats
+
+        t0, stats = time.perf_counter(), SolveStats()
+        cache = FieldCache(enabled=bool(_OPTIONS.get("cache", True)))
+        try:
+            refine_rows(tb, all_rows, workers=_OPTIONS.get("workers"), dask_address=_OPTIONS.get("dask_address"),
+                        cache=cache, stats=stats)
+        finally:
+            cache.close()
+        info.field_solves, info.cached, info.direct_rows = stats.solved, stats.cached, total
+        info.backend, info.workers, info.seconds = stats.backend, stats.workers, time.perf_counter() - t0
     return tb
