@@ -320,3 +320,18 @@ def test_study_thickness_bound_keeps_the_exact_front():
     bounded = exhaustive(ProblemEvaluator(pb), pb.space.sizes, pb.n_obj, chunk=4096, ranges=ranges)
     assert len(plain.archive.F) >= 3
     _same_front(bounded.archive, plain.archive)
+
+
+def test_flipped_stack_is_the_layer_order_reversed():
+    # the mirror map of the local search: decoding the flipped choices gives the same layers in
+    # reverse order (definition of the flip), and flipping twice gives the choices back
+    from strainline.optimizer.search.evolutionary import flip, mirror_map
+
+    pb = small_problem()
+    sp = pb.space
+    table = mirror_map(sp)
+    assert table is not None
+    x = np.random.default_rng(3).integers(0, sp.sizes, (300, len(sp.sizes)))
+    y = flip(x, table)
+    np.testing.assert_array_equal(flip(y, table), x)
+    np.testing.assert_array_equal(sp.decode(y).thickness_m, sp.decode(x).thickness_m[:, ::-1])

@@ -14,7 +14,9 @@ followed by a Pareto local search around the archive; and plain random search.
 * **Budget use.** The stagnation stop scales with the budget (a third of the generations the
   budget allows, at least 30); what is left of the budget then goes to a Pareto local search
   (Paquete, Chiarandini & Stuetzle 2004): every single-variable neighbour of each archive point
-  not yet explored, in batches, until the archive stops changing or the budget is spent.
+  not yet explored, in batches, until the archive stops changing; then the two-variable
+  neighbours (variables next to each other in the coding first), until the budget is spent; the
+  flipped stack of every archive point (:func:`mirror_map`) is a starting point too.
 """
 from __future__ import annotations
 
@@ -80,6 +82,56 @@ def variable_operators(space: Any = None, sizes: np.ndarray | None = None) -> li
     return ops
 
 
+def mirror_map(space: Any) -> np.ndarray | None:
+    """Index map of the flipped stack (top <-> bottom) of an unsymmetric study whose signal may sit
+    on either face: ``x_flipped = table[k][x[:, src[k]]]`` per variable, as (src, table) pairs in an
+    object array; None when a variable has no known mirror. The flipped stack is a different design
+    (the inside face of the bend changes) but often a near one, so the local search visits both."""
+    if space is None or space.study.stack.symmetric or len(space.sig_opts) < 2:
+        return None
+    N = space.n_cu
+    names = [v.name for v in space.variables]
+    col = {n: k for k, n in enumerate(names)}
+    place = list(space.place_opts)
+    out = []
+    for v in space.variables:
+        base, _, rest = v.name.partition("[")
+        i = rest.rstrip("]")
+        ident = np.arange(v.size)
+        if v.name == "signal_layer":
+            s = list(space.sig_opts)
+            if any(N - 1 - o not in s for o in s):
+                return None
+            out.append((col[v.name], np.array([s.index(N - 1 - o) for o in s])))
+        elif base == "copper":
+            out.append((col.get(f"copper[{N - 1 - int(i)}]"), ident))
+        elif base in ("film", "adhesive"):
+            out.append((col.get(f"{base}[{N - 2 - int(i)}]"), ident))
+        elif base == "placement":
+            flip = [place.index(2 if p == 2 else 1 - p) if (2 if p == 2 else 1 - p) in place else -1 for p in place]
+            if min(flip) < 0:
+                return None
+            out.append((col.get(f"placement[{N - 2 - int(i)}]"), np.array(flip)))
+        elif v.name in ("cover[top]", "cover[bottom]"):
+            out.append((col.get("cover[bottom]" if i == "top" else "cover[top]"), ident))
+        elif base == "coverage":
+            out.append((col.get(f"coverage[{N - 2 - int(i)}]"), ident))
+        elif v.name == "line_gap":
+            out.append((col[v.name], ident))
+        else:
+            return None
+        if out[-1][0] is None:
+            return None
+    table = np.empty(len(out), object)
+    table[:] = out
+    return table
+
+
+def flip(X: np.ndarray, table: np.ndarray) -> np.ndarray:
+    """The flipped stacks of rows X (:func:`mirror_map`)."""
+    return np.stack([t[X[:, src]] for src, t in table], axis=1)
+
+
 def mutate(X: np.ndarray, ops: list[VariableOps], rng: np.random.Generator, prob_var: float) -> np.ndarray:
     """Mutate integer rows: each variable with ``prob_var`` (at least one per row)."""
     X = np.array(X, np.int64)
@@ -124,10 +176,11 @@ def random_search(evaluate: Evaluator, sizes: np.ndarray, n_obj: int, budget: in
     return SearchResult("random", arch, done, space_size(sizes), time.perf_counter() - t0, "budget")
 
 
-def _scan(evaluate, sizes, arch, rng, want, limit, t_limit):
-    """Random batches into the archive until ``want`` feasible rows or ``limit`` candidates."""
-    seeds, done, t0 = [], 0, time.perf_counter()
-    while done < limit and sum(len(s) for s in seeds) < want and time.perf_counter() - t0 < t_limit:
+def _scan(evaluate, sizes, arch, rng, want, limit):
+    """Random batches into the archive until ``want`` feasible rows or ``limit`` candidates (counts
+    only, so the same seed scans the same candidates)."""
+    seeds, done = [], 0
+    while done < limit and sum(len(s) for s in seeds) < want:
         m = min(SCAN_BATCH, limit - done)
         x = rng.integers(0, sizes, size=(m, sizes.size))
         F, G = evaluate(x)
@@ -139,27 +192,52 @@ def _scan(evaluate, sizes, arch, rng, want, limit, t_limit):
     return np.unique(S, axis=0)[:want] if len(S) else S, done
 
 
-def _local_search(evaluate, sizes, arch, budget, explored):
-    """Pareto local search: every single-variable neighbour of each unexplored archive point."""
+def _neighbours(x: np.ndarray, sizes: np.ndarray, d: int) -> np.ndarray:
+    """Every point differing from ``x`` in exactly one variable (``d = 0``), or in exactly the two
+    variables ``k`` and ``k + d`` for some ``k``."""
+    alts = [np.delete(np.arange(int(s)), x[k]) for k, s in enumerate(sizes)]
+    out = []
+    if d == 0:
+        for k, alt in enumerate(alts):
+            nb = np.repeat(x[None, :], len(alt), axis=0)
+            nb[:, k] = alt
+            out.append(nb)
+    else:
+        for i in range(len(sizes) - d):
+            a, b = np.meshgrid(alts[i], alts[i + d], indexing="ij")
+            nb = np.repeat(x[None, :], a.size, axis=0)
+            nb[:, i], nb[:, i + d] = a.ravel(), b.ravel()
+            out.append(nb)
+    return np.concatenate(out) if out else np.empty((0, len(sizes)), np.int64)
+
+
+def _local_search(evaluate, sizes, arch, budget, rng, mirror=None):
+    """Pareto local search: the single-variable neighbours of each unexplored archive point until
+    the archive stops changing; then, with budget left, the two-variable neighbours, variables next
+    to each other in the coding first (a film and its adhesive, an adhesive and its placement)."""
     used = 0
-    while used < budget:
-        todo = [x for x in arch.X if x.tobytes() not in explored]
-        if not todo:
-            return used, "local search converged (every archive point's neighbours evaluated)"
-        batch = []
-        for x in todo:
-            explored.add(x.tobytes())
-            for k, s in enumerate(sizes):
-                nb = np.repeat(x[None, :], int(s) - 1, axis=0)
-                nb[:, k] = np.delete(np.arange(int(s)), x[k])
-                batch.append(nb)
-            if sum(len(b) for b in batch) >= 4096:
+    for d in range(len(sizes)):
+        explored: set[bytes] = set()
+        while used < budget:
+            anchors = arch.X if mirror is None else np.concatenate([arch.X, flip(arch.X, mirror)])
+            todo = [x for x in anchors if x.tobytes() not in explored]
+            if not todo:
                 break
-        xb = np.concatenate(batch)[: budget - used]
-        F, G = evaluate(xb)
-        arch.add(xb, F, G)
-        used += len(xb)
-    return used, "budget"
+            batch, held = [], 0
+            for i in rng.permutation(len(todo)):
+                x = todo[i]
+                explored.add(x.tobytes())
+                batch.append(_neighbours(x, sizes, d))
+                held += len(batch[-1])
+                if held >= 4096:
+                    break
+            xb = np.concatenate(batch)[: budget - used]
+            F, G = evaluate(xb)
+            arch.add(xb, F, G)
+            used += len(xb)
+        if used >= budget:
+            return used, f"budget (local search at {'one-variable' if d == 0 else f'two-variable, distance {d},'} moves)"
+    return used, "local search converged (every archive point's one- and two-variable neighbours evaluated)"
 
 
 def _crowding(F: np.ndarray) -> np.ndarray:
@@ -251,7 +329,7 @@ def evolutionary(evaluate: Evaluator, sizes: np.ndarray, n_obj: int, n_con: int,
         The study space, for the operator kinds (:func:`variable_operators`).
     scan : int, optional
         Most candidates of the seeding scan (default ``50 * budget``; it stops once it has a
-        population of feasible points, or after 2 s).
+        population of feasible points).
     local_search : bool
         Spend what the generations leave of the budget on the Pareto local search.
     """
@@ -260,7 +338,7 @@ def evolutionary(evaluate: Evaluator, sizes: np.ndarray, n_obj: int, n_con: int,
     rng = np.random.default_rng(seed)
     arch = Archive(n_obj, sizes.size)
     t0 = time.perf_counter()
-    seeds, scanned = _scan(evaluate, sizes, arch, rng, pop_size, 50 * budget if scan is None else scan, 2.0)
+    seeds, scanned = _scan(evaluate, sizes, arch, rng, pop_size, 50 * budget if scan is None else scan)
     stag = stagnation if stagnation is not None else max(30, budget // pop_size // 3)
     used = 0
 
@@ -313,7 +391,7 @@ def evolutionary(evaluate: Evaluator, sizes: np.ndarray, n_obj: int, n_con: int,
     gen_used = used
     ls_used = 0
     if local_search and used < budget and arch.feasible > 0:
-        ls_used, why = _local_search(evaluate, sizes, arch, budget - used, set())
+        ls_used, why = _local_search(evaluate, sizes, arch, budget - used, rng, mirror_map(space))
         stopped = f"{stopped}; then {why}"
         if progress is not None:
             progress.update(min(used + ls_used, budget), budget)

@@ -12,15 +12,25 @@ scattered to every Dask worker.
 """
 from __future__ import annotations
 
+import copyreg
 import os
 from collections.abc import Callable
 from concurrent.futures import ProcessPoolExecutor, as_completed
+from types import MappingProxyType
 from typing import Any
 
 import numpy as np
 
 from strainline.optimizer.search.archive import Archive
 from strainline.optimizer.search.exhaustive import CHUNK, _ChunkDigits, exhaustive_pieces, split_ranges
+
+# Read-only catalog mappings (types.MappingProxyType) travel as their contents: the problem holds
+# catalog records and must pickle to reach a Dask worker.
+def _mapping_proxy(d: dict) -> MappingProxyType:
+    return MappingProxyType(d)
+
+
+copyreg.pickle(MappingProxyType, lambda m: (_mapping_proxy, (dict(m),)))
 
 #: Tasks per worker: enough for the progress bar and for balancing uneven ranges.
 TASKS_PER_WORKER = 6
