@@ -77,6 +77,8 @@ def register(subparsers) -> argparse.ArgumentParser:
     p.add_argument("--allow-uncovered", action="store_true",
                    help="dynamic use: waive the rule that every leaf face carries a cover")
     p.add_argument("--json", action="store_true", help="print one JSON object")
+    p.add_argument("--catalog", metavar="PATH", default=None,
+                   help="catalog folder the stackup's materials come from (default: the built-in catalog)")
     return p
 
 
@@ -148,7 +150,7 @@ def run(args: argparse.Namespace) -> int:
     for opt, value in (("--cycles", args.cycles), ("--allow-uncovered", args.allow_uncovered or None)):
         if value is not None and args.use != "dynamic":
             raise InputError(f"applies to dynamic use only; add --use dynamic or drop {opt}", opt)
-    catalog = load_catalog()
+    catalog = load_catalog(getattr(args, "catalog", None))
     stackup = load_stackup(args.stackup, catalog)
     rep = bend_report(stackup, args.inner_radius_mm, inside=args.inside, motion=args.motion,
                       plane_strain=args.plane_strain, plastic=args.plastic, use=args.use, cycles=args.cycles,

@@ -57,7 +57,7 @@ def build_report_html(front: Mapping[str, Any], catalog: Any | None = None, plot
     """
     front = check_front(front)
     if catalog is None:
-        catalog = try_catalog()
+        catalog = try_catalog(front)
     if plotly_js is None:
         from plotly.offline import get_plotlyjs
 
@@ -90,7 +90,7 @@ def output_files(front: Mapping[str, Any], catalog: Any | None = None) -> dict[s
 
     front = check_front(front)
     if catalog is None:
-        catalog = try_catalog()
+        catalog = try_catalog(front)
     files = {"report.html": build_report_html(front, catalog)}
     files.update({f"handoff/{name}": text for name, text in build_handoff(front, catalog).items()})
     return files

@@ -122,7 +122,7 @@ def build_handoff(front: Mapping[str, Any], catalog: Any | None = None) -> dict[
     """All handoff files for a front: ``{file name: text}``; nothing is written."""
     front = check_front(front)
     if catalog is None:
-        catalog = try_catalog()
+        catalog = try_catalog(front)
     sheets = [build_sheet(c, front, catalog) for c in front["candidates"]]
     files: dict[str, str] = {}
     for sh in sheets:
