@@ -296,6 +296,29 @@ def test_additive_bound_skips_blocks_and_keeps_the_exact_front():
     assert bounded.evaluated + info["skipped"] == plain.evaluated
 
 
+def test_search_uses_the_bound_and_auto_projects_with_it(monkeypatch):
+    import strainline.optimizer.search.engine as engine
+
+    rng = np.random.default_rng(6)
+    sizes = np.array([4, 4, 4, 4, 5, 6, 3])
+    T = [rng.random(int(s)) for s in sizes]
+
+    def ev(x):
+        t = sum(T[k][x[:, k]] for k in range(len(sizes)))
+        F = np.stack([t, -t + x[:, 0], x[:, 1] * 1.0], axis=1)
+        return F, (t / 3.0 - 1.0)[:, None]
+
+    monkeypatch.setattr(engine, "BOUND_MIN", 0)
+    plain = exhaustive(ev, sizes, 3)
+    r = search(ev, sizes, 3, 1, "exhaustive", workers=1, bound=(ev, 0))
+    _same_front(r.archive, plain.archive)
+    assert r.info["bounds"]["skipped"] > 0
+    said = []
+    r = search(ev, sizes, 3, 1, "auto", budget=300, workers=1, bound=(ev, 0), time_limit_s=0.0, notify=said.append)
+    assert r.method == "evolutionary" and 0 < r.info["bounds"]["estimated_skip_share"] < 1
+    assert "even with the thickness bound" in said[0]
+
+
 def test_bound_refuses_a_column_that_is_not_additive():
     from strainline.optimizer.search.bounds import surviving_ranges
 

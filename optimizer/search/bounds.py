@@ -71,8 +71,17 @@ def find_split(evaluate: Evaluator, sizes: np.ndarray, col: int, rng: np.random.
     return None
 
 
-def surviving_ranges(evaluate: Evaluator, sizes: np.ndarray, col: int, seed: int = 0
-                     ) -> tuple[list[tuple[int, int]], dict]:
+def estimate_skip(evaluate: Evaluator, sizes: np.ndarray, col: int, split: tuple[int, np.ndarray],
+                  rng: np.random.Generator, n: int = 4096) -> float:
+    """Share of the blocks the bound skips, from ``n`` random blocks (for the time projection)."""
+    m, b0 = split
+    q = rng.integers(0, space_size(sizes[m:]), n)
+    g = evaluate(_block_x(np.asarray(sizes, np.int64), m, q, np.broadcast_to(b0, (n, m))))[1][:, col]
+    return float(np.mean(g > SLACK))
+
+
+def surviving_ranges(evaluate: Evaluator, sizes: np.ndarray, col: int, seed: int = 0,
+                     split: tuple[int, np.ndarray] | None = None) -> tuple[list[tuple[int, int]], dict]:
     """Index ranges left after skipping every block whose bound on column ``col`` is over its limit.
 
     Returns
@@ -85,7 +94,7 @@ def surviving_ranges(evaluate: Evaluator, sizes: np.ndarray, col: int, seed: int
     """
     sizes = np.asarray(sizes, np.int64)
     total = space_size(sizes)
-    found = find_split(evaluate, sizes, col, np.random.default_rng(seed))
+    found = split if split is not None else find_split(evaluate, sizes, col, np.random.default_rng(seed))
     if found is None:
         return [(0, total)], {"skipped": 0, "reason": "no additive split of the limit's column found"}
     m, b0 = found

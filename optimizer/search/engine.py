@@ -179,16 +179,37 @@ def search(evaluate: Evaluator, sizes: np.ndarray, n_obj: int, n_con: int, metho
     if method in ("auto", "exhaustive") and size < 2**62:
         t0 = time.perf_counter()
         ranges, binfo = [(0, size)], {}
-        if bound is not None and size >= BOUND_MIN:
-            from strainline.optimizer.search.bounds import surviving_ranges
-
-            ranges, binfo = surviving_ranges(bound[0], sizes, bound[1], seed)
-        todo = sum(b - a for a, b in ranges)
-        arch, left, done, rate = _probe(ev_ex, sizes, n_obj, ranges, CHUNK, progress, size)
         par = 1 if dask_address else workers
         if dask_address:
             from strainline.optimizer.search.parallel import cluster_threads
             par = cluster_threads(dask_address)
+        if bound is not None and size >= BOUND_MIN:
+            from strainline.optimizer.search import bounds as bnd
+
+            rng = np.random.default_rng(seed)
+            t1 = time.perf_counter()
+            split = bnd.find_split(bound[0], sizes, bound[1], rng)
+            if split is not None:
+                share = bnd.estimate_skip(bound[0], sizes, bound[1], split, rng)
+                P = space_size(sizes[:split[0]])
+                rate0 = (4 * P + 4096) / max(time.perf_counter() - t1, 1e-9)
+                guess = (size // P + size * (1.0 - share)) / rate0 / par
+                if method == "auto" and guess > time_limit_s:
+                    ranges = None            # even with the bound the space is too large: skip the pass
+                    binfo = {"estimated_skip_share": round(share, 4), "projected_s": round(guess, 1)}
+                else:
+                    ranges, binfo = bnd.surviving_ranges(bound[0], sizes, bound[1], seed, split)
+        if ranges is None:
+            if notify is not None:
+                notify(f"auto: an exhaustive run of {size:,} candidates is projected at {_fmt_s(binfo['projected_s'])}"
+                       f" even with the thickness bound (limit {_fmt_s(time_limit_s)}); running the evolutionary search")
+            res = evolutionary(evaluate, sizes, n_obj, n_con, budget, seed, pop_size=pop_size, progress=progress,
+                               space=space)
+            res.info.update(bounds=binfo, time_limit_s=time_limit_s,
+                            auto="evolutionary: projected exhaustive time over the limit")
+            return res
+        todo = sum(b - a for a, b in ranges)
+        arch, left, done, rate = _probe(ev_ex, sizes, n_obj, ranges, CHUNK, progress, size)
         remaining = (todo - done) / rate
         projected = remaining / par
         info = {"rate_per_s_probe": round(rate), "projected_s": round(projected + (done / rate), 3),
