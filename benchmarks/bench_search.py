@@ -4,11 +4,16 @@
    at 20,000 evaluations, 5 seeds -- hypervolume as a share of the exact front's, the additive
    epsilon indicator (Zitzler et al. 2003) and the share of exact front points found -- beside
    random search of the same budget.
-2. pymoo's own loop speed (evaluations/s with a trivial evaluator) against the enumeration speed,
-   which sets the ``auto`` threshold.
+2. The NSGA-II loop's own speed (evaluations/s with a trivial evaluator) against the enumeration
+   speed of a study problem.
 3. A space of 10^10 or more (6 copper layers, free order): archive hypervolume against
-   evaluations until the run stops on stagnation, and the wall time.
+   evaluations until the run stops, and the wall time.
 4. The README demo study end to end (``strainline solve studies/handheld-scanner-hinge.yaml``).
+5. benchmarks/studies/bench-3cu-1e9.yaml (8.5e8 candidates, feasible share ~1e-4): the exact front
+   by ``search(method="exhaustive")`` with the thickness bound on 2 worker processes (wall time,
+   share skipped), then NSGA-II at 20,000 evaluations on 5 seeds against it.
+6. benchmarks/studies/bench-4cu-1e12.yaml (1.2e12 candidates): a best-known front from three runs
+   of 400,000 evaluations, then 5 seeds at 20,000 and 100,000 evaluations against it.
 
 Run:  python benchmarks/bench_search.py [--quick] [part numbers, e.g. 1 3]
 """
@@ -25,9 +30,11 @@ import numpy as np
 
 from strainline.optimizer.inputs.catalog import load_catalog
 from strainline.optimizer.search.problem import build_problem
+from strainline.optimizer.search.archive import Archive
 from strainline.optimizer.search.engine import (
-    additive_epsilon, evolutionary, exhaustive, hypervolume, random_search,
+    additive_epsilon, evolutionary, exhaustive, hypervolume, random_search, search,
 )
+from strainline.optimizer.search.parallel import ProblemEvaluator
 from strainline.optimizer.search.space import build_space
 from strainline.optimizer.inputs.study import validate_study
 
@@ -121,7 +128,7 @@ def part2() -> None:
     for s in range(0, len(x), 65536):
         pb.evaluate(x[s:s + 65536], prune=True)
     dt2 = time.perf_counter() - t1
-    print(f"[2] pymoo NSGA-II loop with a trivial evaluator: {r.evaluated / dt:,.0f} evaluations/s; "
+    print(f"[2] NSGA-II loop with a trivial evaluator: {r.evaluated / dt:,.0f} evaluations/s; "
           f"enumeration of the study problem: {len(x) / dt2:,.0f} candidates/s (wall clock); "
           f"ratio {len(x) / dt2 / (r.evaluated / dt):.0f}x")
 
@@ -153,6 +160,58 @@ def part3(budget=200000) -> None:
             print(f"    {hist[k][0]:8,d}  {hist[k][1]:.5f}")
 
 
+def _study_problem(name):
+    from strainline.optimizer.inputs.study import load_study
+
+    study = load_study(ROOT / "benchmarks" / "studies" / name, CAT)
+    sp = build_space(study, CAT)
+    return build_problem(sp, CAT)
+
+
+def _evo_rows(pb, R, budgets, seeds):
+    ideal, nadir = R.min(axis=0), R.max(axis=0)
+    hv = hypervolume(R, ideal, nadir)
+    sp = pb.space
+    for budget in budgets:
+        for seed in seeds:
+            t0 = time.perf_counter()
+            r = evolutionary(ProblemEvaluator(pb, prune=False), sp.sizes, pb.n_obj, pb.n_con, budget, seed,
+                             pop_size=100, space=sp)
+            dt = time.perf_counter() - t0
+            print(f"    budget {budget:7,d} seed {seed}: HV share {hypervolume(r.archive.F, ideal, nadir) / hv:.5f}, "
+                  f"{r.evaluated:,} evaluations + {r.info['scan_evaluations']:,} scanned, "
+                  f"{r.info['generations']} generations, {dt:.1f} s wall; stopped: {r.stopped}")
+
+
+def part5(seeds=(1, 2, 3, 4, 5)) -> None:
+    pb = _study_problem("bench-3cu-1e9.yaml")
+    sp = pb.space
+    col = pb.constraint_names.index("total_thickness")
+    t0 = time.perf_counter()
+    ex = search(ProblemEvaluator(pb, prune=False), sp.sizes, pb.n_obj, pb.n_con, "exhaustive", workers=2,
+                evaluate_exhaustive=ProblemEvaluator(pb), bound=(ProblemEvaluator(pb, prune=False), col), force=True)
+    dt = time.perf_counter() - t0
+    b = ex.info.get("bounds", {})
+    print(f"[5] 3-copper space {sp.size:,}: exact front {len(ex.archive.F)} points, {ex.archive.feasible:,} feasible, "
+          f"{dt:.1f} s wall on 2 workers; bound skipped {b.get('skipped', 0) / sp.size:.1%} "
+          f"({b.get('blocks_skipped', 0):,} of {b.get('blocks', 0):,} blocks of {b.get('block_size', 0)}); "
+          f"{ex.info['rate_per_s']:,} candidates/s over the whole space")
+    _evo_rows(pb, ex.archive.F, (20000,), seeds)
+
+
+def part6(seeds=(1, 2, 3, 4, 5), ref_budget=400000) -> None:
+    pb = _study_problem("bench-4cu-1e12.yaml")
+    sp = pb.space
+    ref = Archive(pb.n_obj, len(sp.sizes))
+    t0 = time.perf_counter()
+    for seed in (101, 102, 103):
+        ref.merge(evolutionary(ProblemEvaluator(pb, prune=False), sp.sizes, pb.n_obj, pb.n_con, ref_budget, seed,
+                               pop_size=200, space=sp).archive)
+    print(f"[6] 4-copper space {sp.size:.3e}: best-known front {len(ref.F)} points from 3 runs of "
+          f"{ref_budget:,} evaluations ({time.perf_counter() - t0:.0f} s)")
+    _evo_rows(pb, ref.F, (20000, 100000), seeds)
+
+
 def part4() -> None:
     with tempfile.TemporaryDirectory() as tmp:
         t0 = time.perf_counter()
@@ -175,3 +234,7 @@ if __name__ == "__main__":
             part1(seeds=(1, 2) if quick else (1, 2, 3, 4, 5))
         elif part == "3":
             part3(budget=40000 if quick else 200000)
+        elif part == "5":
+            part5(seeds=(1, 2) if quick else (1, 2, 3, 4, 5))
+        elif part == "6":
+            part6(seeds=(1, 2) if quick else (1, 2, 3, 4, 5), ref_budget=100000 if quick else 400000)
