@@ -15,7 +15,7 @@ import time
 from typing import Any, TextIO
 
 #: The bar when the total is known: the floored percentage, the bar, counts, elapsed and remaining.
-BAR_FORMAT = "{desc}: {done_pct:5.1f}%|{bar}| {n_fmt}/{total_fmt} [{elapsed}<{remaining}]"
+BAR_FORMAT = "{desc}: {done_pct:5.1f}%|{bar}| {n_fmt}/{total_fmt} [{elapsed}<{remaining}, {rate_fmt}]"
 #: A phase without a count (building a table, writing files): the elapsed time only.
 OPEN_FORMAT = "{desc}: {elapsed}"
 
