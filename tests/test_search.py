@@ -358,3 +358,33 @@ def test_flipped_stack_is_the_layer_order_reversed():
     y = flip(x, table)
     np.testing.assert_array_equal(flip(y, table), x)
     np.testing.assert_array_equal(sp.decode(y).thickness_m, sp.decode(x).thickness_m[:, ::-1])
+
+
+def test_operator_tables_follow_the_catalog_thickness_order():
+    # ordered within a material: the mutation's up/down steps are the next thicker/thinner option of
+    # the same material (catalogs/materials.yaml thickness lists); another material is reached at
+    # the nearest thickness; placements are unordered
+    from strainline.optimizer.search.evolutionary import variable_operators
+
+    pb = small_problem()
+    sp = pb.space
+    ops = {v.name: op for v, op in zip(sp.variables, variable_operators(sp))}
+    film = ops["film[0]"]
+    for k, (mat, t) in enumerate(sp.film_opts):
+        same = sorted(tt for m, tt in sp.film_opts if m == mat)
+        up = sp.film_opts[film.up[k]]
+        assert up[0] == mat and up[1] == (same[same.index(t) + 1] if t != same[-1] else t)
+        for f, members in enumerate(film.families):
+            near = sp.film_opts[film.nearest[f, k]]
+            assert abs(near[1] - t) == min(abs(sp.film_opts[j][1] - t) for j in members)
+    assert not ops["placement[0]"].ordered
+
+
+def test_evolutionary_reports_what_it_did():
+    ev, sizes = synthetic(seed=7)
+    r = evolutionary(ev, sizes, 3, 1, budget=3000, seed=3, pop_size=30)
+    assert r.evaluated <= 3000
+    assert r.info["generation_evaluations"] + r.info["local_search_evaluations"] == r.evaluated
+    assert r.info["generations"] >= 1 and r.info["scan_evaluations"] > 0
+    assert r.info["stagnation_generations"] == max(30, 3000 // 30 // 3)     # scales with the budget
+    assert r.stopped
