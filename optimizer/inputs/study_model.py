@@ -13,7 +13,7 @@ import re
 from pathlib import Path
 from typing import Annotated, Any
 
-from pydantic import ValidationError
+from pydantic import Field, ValidationError
 from pydantic_core import PydanticCustomError
 from strainline.optimizer.errors import StudyError, not_one_of
 from strainline.optimizer.inputs import study_spec as S
@@ -158,6 +158,9 @@ class LineModel(Base):
     gap_um: K.num_list(1.0, 5000.0, description="pairs: edge-to-edge gap; coplanar: slot to the side grounds; "
                        "one value or a list of options, um") = None
     frequency_ghz: K.num(0.001, 100.0, description="frequency for the loss, GHz (default 1)") = 1.0
+    hatch_correction: K.num(0.5, 5.0, description=(
+        "impedance factor of a hatched reference plane calibrated on coupons (Z over the hatch / Z over a "
+        "solid plane); overrides the 3-D field solver's factor")) = None
 
 
 _LEAVES_SCHEMA = {
@@ -192,6 +195,12 @@ _WTS, _WTS_S = _ctx(lambda c: list(c.weights))
 _FOILS, _FOILS_S = _ctx(lambda c: list(c.foils))
 
 
+class HatchModel(Base):
+    pitch_um: K.num(10.0, 20000.0, description="centre-to-centre pitch of the hatch lines, um")
+    line_width_um: K.num(5.0, 20000.0, description="copper width of each hatch line, um (below the pitch)")
+    angle_deg: K.num(45.0, 90.0, description="angle of the hatch lines to the trace: 45 or 90 degrees") = 45.0
+
+
 class StackModel(Base):
     copper_layers: K.num(1, 8, integer=True)
     symmetric: K.boolean("mirror the top half of the stack onto the bottom half") = False
@@ -223,6 +232,9 @@ class StackModel(Base):
                                 "below 1 = hatched)") = (1.0,)
     signal_coverage: K.num(0.0, 1.0, lo_open=True, description="copper fraction of the signal layer in the bend "
                            "(default 0.25)") = 0.25
+    ground_hatch: list[HatchModel] = Field(default=None, description=(
+        "hatched ground planes as geometry (pitch, line width, angle): each adds a coverage option of fill "
+        "1 - (1 - w/p)^2, and front candidates over it get a 3-D field solution"))
 
 
 class LimitsModel(Base):
@@ -277,6 +289,30 @@ assert tuple(LimitsModel.model_fields) == S._LIMIT_KEYS and tuple(SearchModel.mo
 
 
 # ------------------------------------------------------------------------------------------------
+def _ground_hatch(st: Any, err: Any) -> tuple[tuple[float, ...], tuple[tuple[float, float, float], ...]]:
+    """Coverage options and hatch geometry: each ``ground_hatch`` entry adds its fill
+    1 - (1 - w/p)^2 (square grid) to the solid option(s) of ``ground_coverage``."""
+    if not st.ground_hatch:
+        return tuple(st.ground_coverage), ()
+    hatches, fills = [], []
+    for i, h in enumerate(st.ground_hatch):
+        if h.angle_deg not in (45.0, 90.0):
+            raise err(f"stack.ground_hatch[{i}].angle_deg", f"{h.angle_deg:g} is not one of [45, 90]")
+        if not h.line_width_um < h.pitch_um:
+            raise err(f"stack.ground_hatch[{i}].line_width_um",
+                      f"{h.line_width_um:g} must be below the pitch {h.pitch_um:g} um (equal = a solid plane)")
+        fill = round(1.0 - (1.0 - h.line_width_um / h.pitch_um) ** 2, 9)
+        if fill in fills:
+            raise err(f"stack.ground_hatch[{i}]", f"has the same copper fill ({fill:.4g}) as an earlier hatch")
+        hatches.append((float(h.pitch_um), float(h.line_width_um), float(h.angle_deg)))
+        fills.append(fill)
+    partial = [c for c in st.ground_coverage if c < 1.0]
+    if partial:
+        raise err("stack.ground_coverage", f"{partial[0]:g} is a hatched fraction; with stack.ground_hatch give "
+                  "hatched planes as geometry only (ground_coverage keeps 1 for a solid plane)")
+    return tuple(st.ground_coverage) + tuple(fills), tuple(hatches)
+
+
 def build_study(data: Any, catalog: Any, file: str = "", folder: Path | None = None) -> S.Study:
     """Validate ``data`` with :class:`StudyModel`, check the cross-field rules, build the Study."""
     def where(path: str) -> str:
@@ -312,7 +348,7 @@ def build_study(data: Any, catalog: Any, file: str = "", folder: Path | None = N
             raise err("line.gap_um", f"is only used by [{', '.join(S.GAP_KINDS)}], not by {kind!r}")
         gaps = ()
     line = S.LineSpec(kind, ln.target_ohm, tol, tol_label, nominal / 100.0, ln.width_range_um[0],
-                      ln.width_range_um[1], gaps, ln.frequency_ghz)
+                      ln.width_range_um[1], gaps, ln.frequency_ghz, ln.hatch_correction)
 
     if bd.cycles is None and bd.use == "dynamic":
         raise err("bend.cycles", "is required for dynamic use (the number of flex cycles the product needs)")
@@ -351,8 +387,9 @@ def build_study(data: Any, catalog: Any, file: str = "", folder: Path | None = N
     dth = _per_material("stack.dielectric_thickness_um", st.dielectric_thickness_um, st.dielectric, where)
     ath = _per_material("stack.adhesive_thickness_um", st.adhesive_thickness_um,
                         [a for a in st.adhesive if a != S.NONE], where)
+    gcov, hatches = _ground_hatch(st, err)
     stack = S.StackSpec(ncu, st.symmetric, st.signal_layer, st.order, st.copper_weights, st.copper_types,
-                        st.dielectric, dth, st.adhesive, ath, st.coverlay, st.ground_coverage, st.signal_coverage)
+                        st.dielectric, dth, st.adhesive, ath, st.coverlay, gcov, st.signal_coverage, hatches)
 
     lim = m.limits
     lvals = {k: getattr(lim, k) for k in S._LIMIT_KEYS}

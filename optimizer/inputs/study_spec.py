@@ -55,13 +55,14 @@ NONE = "none"
 
 # the keys of each section, in file order (the model in study_model.py has exactly these fields)
 _TOP_KEYS = ("name", "description", "catalog", "line", "bend", "stack", "limits", "objectives", "search")
-_LINE_KEYS = ("type", "target_ohm", "tolerance", "nominal_error_pct", "width_range_um", "gap_um", "frequency_ghz")
+_LINE_KEYS = ("type", "target_ohm", "tolerance", "nominal_error_pct", "width_range_um", "gap_um", "frequency_ghz",
+              "hatch_correction")
 _BEND_KEYS = ("inner_radius_mm", "inside", "use", "cycles", "motion", "region", "leaves", "allow_uncovered",
               "plane_strain")
 _STACK_KEYS = (
     "copper_layers", "symmetric", "signal_layer", "order", "copper_weights", "copper_types",
     "dielectric", "dielectric_thickness_um", "adhesive", "adhesive_thickness_um", "coverlay",
-    "ground_coverage", "signal_coverage",
+    "ground_coverage", "signal_coverage", "ground_hatch",
 )
 _LIMIT_KEYS = ("total_thickness_um", "peak_strain_pct", "signal_strain_pct", "min_cycles", "loss_db_per_m",
                "elongation_fraction", "min_yield_pct")
@@ -87,6 +88,8 @@ class LineSpec:
     width_max_um: float
     gap_um: tuple[float, ...]   # empty for single lines
     frequency_ghz: float
+    #: Coupon-calibrated impedance factor of a hatched reference plane (None: the 3-D solver's).
+    hatch_correction: float | None = None
 
 
 @dataclass(frozen=True)
@@ -124,6 +127,9 @@ class StackSpec:
     coverlay: tuple[str, ...]          # coverlay keys, cover-family dielectrics, or "none"
     ground_coverage: tuple[float, ...]
     signal_coverage: float
+    #: Hatched ground options as geometry, (pitch_um, line_width_um, angle_deg) each; their fills
+    #: are among ``ground_coverage``.
+    ground_hatch: tuple[tuple[float, float, float], ...] = ()
 
 
 @dataclass(frozen=True)

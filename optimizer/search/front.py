@@ -221,7 +221,20 @@ def build_front(problem: Problem, result: SearchResult, catalog: Any, seed: int,
             planes = [sig + 1] if sig == 0 else [sig - 1]
         cov = slots["cov_val"][0]
         hatched = [p for p in planes if cov[p] < 1.0]
-        if hatched:
+        if hatched and study.stack.ground_hatch:
+            # hatched planes given as geometry: a 3-D field solution of this candidate over its hatch
+            from strainline.optimizer.search.fieldcache import FieldCache
+            from strainline.optimizer.search.hatchline import candidate_hatch
+            hcache = FieldCache()
+            try:
+                hrec, hnotes = candidate_hatch(study, tb, row, hatched, sig, {p: float(cov[p]) for p in hatched},
+                                               hcache)
+            finally:
+                hcache.close()
+            if hrec is not None:
+                line["hatch"] = hrec
+            findings += hnotes
+        elif hatched:
             findings.append(_finding(
                 "hatched-reference", "warning",
                 "reference plane " + ", ".join(f"L{p + 1} ({100 * cov[p]:.0f} % copper)" for p in hatched)

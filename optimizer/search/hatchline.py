@@ -16,6 +16,7 @@ import math
 from dataclasses import asdict, fields
 from typing import Any
 
+import numpy as np
 from strainline.models.hatch import (
     SOLVER_VERSION,
     Hatch,
@@ -137,3 +138,84 @@ def hatch_text(d: dict[str, Any]) -> str:
 
 
 __all__ = ["cached_hatch_solve", "hatch_for_line", "hatch_from_args", "hatch_text"]
+
+
+def _finding(code: str, severity: str, message: str, source: str) -> dict[str, str]:
+    return {"code": code, "severity": severity, "message": message, "source": source}
+
+
+def candidate_hatch(study: Any, tb: Any, row: int, hatched: list[int], sig: int, fills: dict[int, float],
+                    cache: Any = None) -> tuple[dict[str, Any] | None, list[dict[str, str]]]:
+    """The hatched-reference record and findings of one front candidate, when the study gives its
+    hatched planes as geometry (``stack.ground_hatch``); ``(None, [])`` otherwise.
+
+    The candidate's cross-section (layered dielectric below, composite cover or second gap above)
+    is solved over the hatch whose fill equals the plane's copper fill; the impedance over the
+    hatch is the table's (solid-plane, field-accurate) impedance times the hatch factor, or times
+    ``line.hatch_correction`` when the study gives a coupon-calibrated factor.
+    """
+    from strainline.models.lines import LineGeometry
+
+    hatches = getattr(study.stack, "ground_hatch", ())
+    if not hatches or not hatched:
+        return None, []
+    by_fill = {round(1.0 - (1.0 - w / p) ** 2, 9): (p, w, a) for p, w, a in hatches}
+    kind = study.line.type
+    p_lay = hatched[0]
+    geo = by_fill.get(round(fills[p_lay], 9))
+    if geo is None:
+        return None, []
+    pitch, width, angle = geo
+    hatch = Hatch(pitch * UM, width * UM, angle, float(np.broadcast_to(tb.thickness_m, (tb.n_rows,))[row]))
+    out: dict[str, Any] = {"layer": p_lay + 1, "pitch_um": pitch, "line_width_um": width, "angle_deg": angle,
+                           "fill": _r(hatch.fill, 4)}
+    findings = []
+    if kind == "coplanar":
+        findings.append(_finding("hatched-reference", "warning",
+                                 f"reference plane L{p_lay + 1} is hatched; coplanar lines over a hatch are not "
+                                 "modelled: the impedance shown is the solid-plane value",
+                                 "strainline's 3-D hatched-plane solver covers microstrip, stripline and pairs"))
+        return out, findings
+    strip = kind in ("stripline", "coupled-stripline")
+    sec = tb.section(row)
+    below = [(a, e) for a, e, _ in sec["below"]]
+    h_top, er_top = float(tb.height_top_m[row]), float(tb.er_top[row])
+    if strip and p_lay > sig:      # the hatched plane is above the trace: solve the mirror image
+        below = [(a, e) for a, e, _ in sec["above"]]
+        h_top, er_top = float(tb.height_m[row]), float(tb.er[row])
+    geom = LineGeometry(width_m=float(tb.width_m[row]), height_m=sum(a for a, _ in below),
+                        thickness_m=hatch.thickness_m, er=below[-1][1], gap_m=float(tb.gap_m[row]),
+                        height_top_m=h_top if strip else math.nan, er_top=er_top if strip else math.nan,
+                        cover_m=0.0 if strip else float(tb.cover_m[row]),
+                        cover_er=1.0 if strip else float(tb.cover_er[row]))
+    res = cached_hatch_solve(kind, geom, hatch, cache, layers_below=below)
+    calibrated = study.line.hatch_correction
+    factor = float(calibrated) if calibrated is not None else res.ratio
+    z = float(tb.z_ohm[row]) * factor
+    err = z / study.line.target_ohm - 1.0
+    f_hz = study.line.frequency_ghz * GHZ
+    out.update({"hatch_factor": _r(factor, 5), "factor_source": "line.hatch_correction (coupon-calibrated)"
+                if calibrated is not None else "3-D field solution", "solver_factor": _r(res.ratio, 5),
+                "z_ohm": _r(z), "error_pct": _r(100.0 * err, 4),
+                "quasi_static_limit_ghz": _r(res.f_quasi_static_hz / GHZ, 4),
+                "bragg_frequency_ghz": _r(res.f_bragg_hz / GHZ, 4), "method": METHOD, "limits": LIMITS})
+    both = len(hatched) > 1
+    sev = "warning" if abs(err) > study.line.nominal_error else "info"
+    findings.append(_finding(
+        "hatched-reference", sev,
+        f"reference plane L{p_lay + 1} is hatched ({angle:g} deg, pitch {pitch:g} um, lines {width:g} um, "
+        f"{100 * hatch.fill:.0f} % copper): impedance over the hatch {z:.2f} ohm ({100 * err:+.1f} % from the "
+        f"target; factor {factor:.3f} {'from line.hatch_correction' if calibrated is not None else 'from a 3-D field solution'}"
+        f"{'; the other plane is hatched too and is taken as solid, so this is a lower estimate' if both else ''})"
+        + ("; outside the nominal window: widen the trace over the hatch or choose a denser hatch"
+           if sev == "warning" else ""),
+        "strainline's 3-D hatched-plane field solver (quasi-static; inductance from the air capacitance)"))
+    if f_hz > res.f_quasi_static_hz:
+        findings.append(_finding(
+            "hatch-frequency", "warning",
+            f"{study.line.frequency_ghz:g} GHz is above the quasi-static limit {res.f_quasi_static_hz / GHZ:.2f} GHz "
+            f"of the hatch on L{p_lay + 1} (period {hatch.period_m / UM:.0f} um along the line is more than a tenth "
+            f"of the guided wavelength; first stop band near {res.f_bragg_hz / GHZ:.1f} GHz): the line is no longer "
+            "uniform; use a full-wave solution or a measured coupon",
+            "Bragg condition beta P = pi (Brillouin 1946); lambda/10 rule (common practice, no source)"))
+    return out, findings
