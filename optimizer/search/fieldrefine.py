@@ -114,7 +114,9 @@ def _refresh(problem: Any) -> None:
         refresh()
         return
     if getattr(problem, "fast", None) is not None:
-        from strainline.optimizer.search import problem as problem_module
+        import sys
+
+        problem_module = sys.modules[type(problem).__module__]   # the problem's own module (no import cycle)
         problem.fast = problem_module._fast_tables(problem)
 
 
