@@ -165,3 +165,126 @@ def test_field_check_rows_when_the_front_has_one(front, files):
     other = front["candidates"][1]
     df2 = pd.read_csv(io.StringIO(files[f"{other['id']}.csv"]), dtype=str, keep_default_na=False)
     assert list(df2.loc[df2["section"] == "field-check", "value"]) == ["not run"]
+
+
+# ----------------------------------------------------------------------------- sheets a fabricator can quote from
+def _csv(files, cid):
+    return pd.read_csv(io.StringIO(files[f"{cid}.csv"]), dtype=str, keep_default_na=False)
+
+
+def test_overall_tolerance_combines_the_layers_and_says_how(front, files):
+    cat = load_catalog()
+    for cand in front["candidates"]:
+        df = _csv(files, cand["id"])
+        layer_tol = [float(v) for v in df[(df["section"] == "stackup") & (df["unit"] == "um")
+                                          & (df["quantity"] == "thickness tolerance (+/-)")]["value"]]
+        total = df[df["section"] == "total"].set_index("quantity")
+        worst = float(total.loc["total thickness tolerance, worst case (+/-)", "value"])
+        rss = float(total.loc["total thickness tolerance, root-sum-square (+/-)", "value"])
+        # tolerance stack-up: worst case = arithmetic sum, RSS = root of the sum of squares (K. W. Chase and
+        # A. R. Parkinson, Research in Engineering Design 3 (1991) 23-37; from memory), at the sheet's 0.01 um
+        assert worst == pytest.approx(sum(layer_tol), abs=0.006)
+        assert rss == pytest.approx(sum(t * t for t in layer_tol) ** 0.5, abs=0.006)
+        assert "worst case" in total.loc["total thickness tolerance, worst case (+/-)", "note"]
+        html = files[f"{cand['id']}.html"]
+        assert "worst case: the sum of the layer tolerances" in html and "root-sum-square" in html
+    assert cat.fabrication.material_thickness_tolerance["copper-foil"] == 0.10
+
+
+def test_derived_numbers_rounded_to_the_stated_precision(front, files):
+    """No float noise (1.2000000000000002) in any derived CSV value and no 1e+02 on any sheet."""
+    for cand in front["candidates"]:
+        df = _csv(files, cand["id"])
+        derived = df[(df["key"] == "") & df["value"].str.fullmatch(r"-?\d+(\.\d+)?")]
+        assert len(derived) >= len(cand["layers"])
+        for q, u, v in zip(derived["quantity"], derived["unit"], derived["value"]):
+            decimals = len(v.split(".")[1]) if "." in v else 0
+            assert decimals <= {"um": 2, "%": 2, "mm": 3}.get(u, 4), (q, v)
+        html = files[f"{cand['id']}.html"]
+        shown = re.findall(r">([^<>]*)</td>", html)
+        assert not [t for t in shown if re.search(r"\de[+-]\d", t)]
+        assert "0.01 um" in html                                   # the precision is stated
+    from strainline.optimizer.outputs.formatting import fmt
+    assert fmt(100.0, 2) == "100" and fmt(1.2000000000000002) == "1.2"
+
+
+def test_etch_tolerance_loss_frequency_dk_frequency_and_coupon(front, files):
+    cat = load_catalog()
+    cand = front["candidates"][0]
+    df = _csv(files, cand["id"])
+    etch = df[(df["quantity"] == "trace width tolerance after etch (+/-)")]
+    # catalog etched-width tolerance for 1/3 oz copper: +/-15 % (a public flex-fabricator capability table,
+    # as put in the shipped catalog); the sheet applies it to the designed width
+    rel = cat.fabrication.width_tolerance["1/3oz"]
+    assert rel == 0.15
+    assert float(etch["value"].iloc[0]) == pytest.approx(rel * cand["line"]["width_um"], abs=0.006)
+    loss = df[df["quantity"].str.startswith("line loss")]
+    assert (loss["quantity"].str.contains(f"at {front['study']['line']['frequency_ghz']:g} GHz")).all() and len(loss)
+    dk = df[(df["quantity"] == "Dk") & (df["item"] == cand["layers"][0]["name"])]
+    f_ghz = cat.dielectric(cand["layers"][0]["material"]).dk_frequency_hz / 1e9
+    assert f"at {f_ghz:g} GHz" in dk["note"].iloc[0]
+    method = df[df["quantity"] == "coupon test method"]["value"].iloc[0]
+    assert "IPC-TM-650 2.5.5.7" in method and "TDR" in method     # impedance by TDR: IPC-TM-650 method 2.5.5.7
+
+
+def test_drawing_fields_hatch_and_bend_zone(front, files):
+    import math
+
+    cand = front["candidates"][0]
+    df = _csv(files, cand["id"])
+    drawing = df[df["section"] == "drawing"].set_index("quantity")
+    for q in ("IPC-6013 performance class", "bend-zone length", "stiffener", "surface finish"):
+        assert drawing.loc[q, "value"] == "to fill in", q
+    # bend zone: arc of the mid-plane, angle x (R + T/2) (circle geometry), 90 and 180 degrees
+    r_mm, t_mm = cand["bend"]["inner_radius_mm"], cand["objectives"]["total_thickness_um"] / 1000
+    for deg in (90, 180):
+        arc = math.radians(deg) * (r_mm + t_mm / 2)
+        assert f"{deg} deg -> {arc:.3f}".rstrip("0") in drawing.loc["bend-zone length", "note"]
+    # hatch of the 15 % signal-layer copper: a square grid of lines w at pitch p covers 1 - (1 - w/p)^2
+    hatch = df[df["quantity"].str.startswith("hatch of")]
+    assert len(hatch) == sum(1 for lay in cand["layers"] if lay["kind"] == "copper" and lay["coverage"] < 1)
+    ratio = float(re.search(r"= ([0-9.]+) gives", hatch["note"].iloc[0]).group(1))
+    assert 1 - (1 - ratio) ** 2 == pytest.approx(0.15, abs=2e-4)
+
+
+def _variant(front, **changes):
+    cand = json.loads(json.dumps(front["candidates"][0]))
+    for k, v in changes.items():
+        cand[k] = v
+    return dict(front, candidates=[cand])
+
+
+def test_notes_never_contradict_the_candidate(front):
+    cat = load_catalog()
+    base = front["candidates"][0]
+    # electrodeposited copper chosen for one layer: the note explains the choice, it does not order RA foil
+    layers = json.loads(json.dumps(base["layers"]))
+    layers[2]["material"] = layers[2]["foil"] = "high-ductility-ed"
+    ed = build_handoff(_variant(front, layers=layers), cat)
+    df = pd.read_csv(io.StringIO(ed[f"{base['id']}.csv"]), dtype=str, keep_default_na=False)
+    notes = " ".join(df[df["section"] == "note"]["value"])
+    assert "electrodeposited copper in L1 ground" in notes and "Pareto front" in notes
+    assert not re.search(r"\bUse rolled-annealed", notes)
+    # no coverlay: no coverlay-adhesive note
+    bare = [lay for lay in base["layers"] if "cover" not in lay["name"]]
+    nc = build_handoff(_variant(front, layers=bare), cat)
+    df = pd.read_csv(io.StringIO(nc[f"{base['id']}.csv"]), dtype=str, keep_default_na=False)
+    assert "Coverlay adhesive" not in " ".join(df[df["section"] == "note"]["value"])
+    # with a coverlay the note is there (the fixture's candidates have one)
+    df = pd.read_csv(io.StringIO(build_handoff(front, cat)[f"{base['id']}.csv"]), dtype=str, keep_default_na=False)
+    assert "Coverlay adhesive must fill" in " ".join(df[df["section"] == "note"]["value"])
+
+
+def test_unbonded_candidate_shows_the_bonded_build():
+    from strainline.optimizer.outputs.sheetlookup import bonded_build, leaf_of_layers
+
+    cand = {"layers": [{"kind": "copper"}, {"kind": "dielectric"}, {"kind": "copper"},
+                       {"kind": "air-gap", "thickness_um": 40.0}, {"kind": "copper"}],
+            "choices": {"film[1]": "adhesiveless-polyimide-core 25um", "adhesive[1]": "acrylic-adhesive 15um",
+                        "placement[1]": "above"}}
+    assert bonded_build(cand) == {3: "adhesiveless-polyimide-core 25 um + acrylic-adhesive 15 um (40.0 um)"}
+    cand["layers"][3]["thickness_um"] = 15.0               # only the gap's adhesive is air in the bend
+    assert bonded_build(cand) == {3: "acrylic-adhesive 15 um (15.0 um)"}
+    cand["layers"][3]["thickness_um"] = 7.0
+    assert bonded_build(cand) == {3: "bond material to be agreed (7.0 um)"}
+    assert leaf_of_layers(cand["layers"]) == [1, 1, 1, None, 2]

@@ -198,3 +198,70 @@ def test_strain_limit_install_and_study_given(front):
     limits, basis = strain_limits(_without_study_limit(front, use="install"), None)
     assert limits == [2.0] * len(front["candidates"])          # about 2 %: common practice, no source
     assert "common practice, no source" in basis
+
+
+# ----------------------------------------------------------------------------- a report read at a glance
+def _infeasible_front(front):
+    front = json.loads(json.dumps(front))
+    front["candidates"], front["dominated"] = [], []
+    front["search"].update(evaluated=1000, feasible=0, infeasible={
+        "violations": {"impedance": 120, "total_thickness": 900, "fatigue_life": 40},
+        "nearest": [{"constraint": "total_thickness", "text": "total thickness limit", "excess": 0.25,
+                     "limit": 100.0, "achieved": 125.0, "unit": "um", "bound": "at most"}],
+        "nearest_choices": {"signal_layer": "copper 2", "copper[0]": "1/3oz rolled-annealed",
+                            "film[0]": "polyimide-film 25um"},
+        "message": "no feasible stackup"})
+    return front
+
+
+def test_infeasible_diagnosis_names_counts_limit_reached_and_what_to_relax(front):
+    from strainline.optimizer.outputs.diagnosis import diagnosis
+
+    d = diagnosis(_infeasible_front(front))
+    rows = {r["key"]: r for r in d["rows"]}
+    assert rows["total_thickness"]["count"] == "900" and rows["total_thickness"]["share"] == "90"
+    assert rows["total_thickness"]["limit"] == "at most 100 um" and rows["total_thickness"]["reached"] == "125 um"
+    assert rows["total_thickness"]["over"] == "25 %"
+    assert rows["fatigue_life"]["limit"] == "at least 20,000 cycles"        # the study's bend.cycles
+    assert rows["fatigue_life"]["reached"] == "met"
+    assert d["relax"][0].startswith("Relax the total thickness limit first") and "125 um" in d["relax"][0]
+    assert dict(d["nearest"]) == {"signal layer": "L2", "L1 copper": "1/3oz rolled-annealed",
+                                  "film L1-L2": "polyimide-film 25um"}
+    assert diagnosis(front) is None
+    page = build_report_html(_infeasible_front(front))
+    assert 'id="diagnosis"' in page and 'id="front"' not in page
+
+
+def test_search_panel_readable_keys_and_numbers(front):
+    from strainline.optimizer.outputs.formatting import fmt
+    from strainline.optimizer.outputs.pagedata import search_summary
+
+    front = json.loads(json.dumps(front))
+    front["search"].update(evaluated=269568, objectives=["signal_strain_pct", "total_thickness_um"],
+                           dominated_sample=12)
+    s = search_summary(front, "0.1")
+    assert s["objectives"] == ["signal copper strain (%)", "total thickness (um)"]
+    assert "dominated points kept for the background" in s and "dominated_sample" not in s
+    assert fmt(s["evaluated"]) == "269,568" and fmt(2.696e5) == "269,600"
+    page = build_report_html(front)
+    assert "2.696e+05" not in page.split('id="search-summary"')[1].split("</section>")[0]
+
+
+def test_true_objectives_come_from_the_search(front):
+    from strainline.optimizer.outputs.pagedata import page_data
+
+    front = json.loads(json.dumps(front))
+    front["search"]["objectives"] = ["peak_strain_pct", "total_thickness_um", "loss_db_per_m"]
+    front["candidates"][0]["objectives"]["total_thickness_um"] = None     # a gap in one candidate's figures
+    front["candidates"][0]["bend"]["total_thickness_um"] = 163.5
+    assert "total_thickness_um" in page_data(front, None)["true_objectives"]
+
+
+def test_choices_named_from_one():
+    from strainline.optimizer.outputs.formatting import readable_choice
+
+    assert readable_choice("copper[0]", "1/3oz rolled-annealed") == ("L1 copper", "1/3oz rolled-annealed")
+    assert readable_choice("film[1]", "x")[0] == "film L2-L3"
+    assert readable_choice("signal_layer", "copper 2") == ("signal layer", "L2")
+    assert readable_choice("cover[top]", "none")[0] == "top cover"
+

@@ -61,10 +61,11 @@ def built(request, tmp_path_factory):
     args = ["--budget", "500"]
     if request.param == "unbonded":
         text = UNBONDED_BASE.read_text(encoding="utf-8")
-        assert "region: bonded" in text and "copper_layers: 2" in text
-        study = out / "unbonded.yaml"
+        assert "region: bonded" in text and "copper_layers: 2" in text and "total_thickness_um: 200" in text
+        study = tmp_path_factory.mktemp("unbonded-study") / "unbonded.yaml"   # the output folder holds outputs only
         study.write_text(text.replace("region: bonded", "region: unbonded").replace(
-            "copper_layers: 2", "copper_layers: 4"), encoding="utf-8")
+            "copper_layers: 2", "copper_layers: 4").replace(   # room for a cover on every leaf
+            "total_thickness_um: 200", "total_thickness_um: 400"), encoding="utf-8")
         args = ["--budget", "800", "--method", "evolutionary"]
     assert main(["solve", str(study), "--out", str(out), *args, "--quiet"]) == 0
     front = json.loads((out / "front.json").read_text(encoding="utf-8"))
@@ -323,3 +324,123 @@ def test_hostile_front_json_text_in_sheets_runs_nothing(browser_ctx, tampered):
                 assert page.locator("svg, img, script").count() == 0
         finally:
             page.close()
+
+
+# ----------------------------------------------------------------------------- every view (issue: a report read at a glance)
+@pytest.fixture(scope="module")
+def infeasible(tmp_path_factory):
+    """A real run of the shipped hinge study with a total-thickness limit nothing can meet."""
+    text = UNBONDED_BASE.read_text(encoding="utf-8")
+    assert "total_thickness_um: 200" in text
+    study = tmp_path_factory.mktemp("infeasible-study") / "thin.yaml"
+    study.write_text(text.replace("total_thickness_um: 200", "total_thickness_um: 40"), encoding="utf-8")
+    out = tmp_path_factory.mktemp("infeasible")
+    assert main(["solve", str(study), "--out", str(out), "--method", "evolutionary", "--budget", "500", "--quiet"]) == 0
+    front = json.loads((out / "front.json").read_text(encoding="utf-8"))
+    assert not front["candidates"] and front["search"]["infeasible"]["nearest"]
+    return out, front
+
+
+def test_infeasible_report_diagnoses_and_draws_no_empty_plot(browser_ctx, infeasible):
+    out, front = infeasible
+    inf = front["search"]["infeasible"]
+    page, log = _open(browser_ctx, (out / "report.html").as_uri())
+    try:
+        assert page.locator("#diagnosis").is_visible()
+        assert page.evaluate("document.querySelectorAll('.js-plotly-plot').length") == 0   # no default-axes plot
+        assert page.locator("#front, #section, #strain, #parcoords").count() == 0
+        rows = page.evaluate("[...document.querySelectorAll('#diagnosis table.diag tbody tr')]"
+                             ".map(r => [...r.children].map(td => td.textContent.trim()))")
+        by_count = {r[0]: int(r[1].replace(",", "")) for r in rows}
+        assert sorted(by_count.values()) == sorted(inf["violations"].values())     # front.json's counts
+        checked = 0
+        for miss in inf["nearest"]:                       # each violated constraint: limit and value reached
+            row = next(r for r in rows if r[0] == miss["text"])
+            if miss.get("limit") is not None:
+                assert f"{miss['limit']:g}" in row[3].replace(",", "")
+                assert f"{miss['achieved']:.4g}" in row[4].replace(",", "")
+                checked += 1
+        assert checked >= 1                               # the thickness limit at least
+        relax = page.inner_text("#diagnosis ol.relax")
+        smallest = min(inf["nearest"], key=lambda n: n["excess"])       # the smallest miss is relaxed first
+        assert smallest["text"] in relax.split("\n")[0]
+        assert "not an objective" not in page.inner_text("body")
+        page.screenshot(path=str(out / "infeasible.png"), full_page=True)
+    finally:
+        page.close()
+    assert log["errors"] == []
+
+
+def test_leaves_compare_and_parallel_coordinates(browser_ctx, built):
+    """Strain profiles label every leaf's neutral axis and shade the air gaps; the comparison view puts
+    2-4 candidates on shared axes; the parallel-coordinates labels say L1, L2 ... and stay inside the plot."""
+    out, front = built
+    page, log = _open(browser_ctx, (out / "report.html").as_uri())
+    try:
+        cands = front["candidates"]
+        page.evaluate("window.strainline.select(0)")
+        na = cands[0]["bend"]["neutral_axis_um"]
+        labels = page.evaluate("document.getElementById('strain').layout.annotations.map(a => a.text)")
+        if isinstance(na, list):
+            assert [t for t in labels if "neutral axis" in t] == [f"leaf {k + 1} neutral axis" for k in range(len(na))]
+            gaps = [lay for lay in cands[0]["layers"] if lay["kind"] == "air-gap"]
+            bands = page.evaluate("document.getElementById('strain').layout.shapes.filter(s => s.type === 'rect')"
+                                  ".map(s => [s.y0, s.y1])")
+            assert bands == [[g["y_bottom_um"], g["y_top_um"]] for g in gaps] and gaps
+        else:
+            assert [t for t in labels if "neutral axis" in t] == ["neutral axis"]
+        if len(cands) >= 2:
+            pick = [0, len(cands) - 1]
+            page.evaluate(f"window.strainline.compare({pick})")
+            ids = page.evaluate("document.getElementById('compare-section').layout.xaxis.ticktext")
+            assert ids == [cands[i]["id"] for i in pick]
+            ranges = page.evaluate("['compare-section', 'compare-strain'].map(id => "
+                                   "document.getElementById(id).layout.yaxis.range)")
+            assert ranges[0] == ranges[1]                   # heights on one shared axis
+            xs = page.evaluate("document.getElementById('compare-strain').data.map(t => t.x)")
+            want = [[lay["strain_bottom_pct"], lay["strain_top_pct"]] for i in pick for lay in cands[i]["layers"]
+                    if lay["thickness_um"] > 0 and lay["kind"] != "air-gap"]
+            assert xs == want                               # front.json's face strains, every candidate
+            assert page.locator("#compare-table thead th").count() == 1 + len(pick)
+        page.locator("#parcoords").scroll_into_view_if_needed()
+        page.wait_for_function("document.querySelectorAll('#parcoords .y-axis').length >= 2", timeout=30000)
+        dims = page.evaluate("document.getElementById('parcoords').data[0].dimensions.map(d => d.label)")
+        assert not [d for d in dims if re.search(r"\[\d+\]", d)]                 # no 0-based names
+        if "choices" in cands[0]:                         # the choices, named from 1 (L1 copper, film L1-L2)
+            from strainline.optimizer.outputs.formatting import readable_choice
+
+            named = {re.sub(r" \([^)]*\)$", "", d) for d in dims}      # a unit may follow the name
+            assert named <= {readable_choice(k, v)[0] for k, v in cands[0]["choices"].items()}
+        box = page.evaluate("(() => { const r = document.getElementById('parcoords').getBoundingClientRect();"
+                            " return [r.left, r.right]; })()")
+        texts = page.evaluate("[...document.querySelectorAll('#parcoords text')].filter(t => t.textContent)"
+                              ".map(t => { const r = t.getBoundingClientRect(); return [r.left, r.right]; })")
+        assert texts and all(box[0] - 0.5 <= a and b <= box[1] + 0.5 for a, b in texts)   # nothing clipped
+    finally:
+        page.close()
+    assert log["errors"] == []
+
+
+def test_field_check_mismatch_is_highlighted(browser_ctx, tmp_path):
+    front = json.loads(FIXTURE.read_text(encoding="utf-8"))
+    bad = front["candidates"][1]
+    # a field-solved impedance 19.6 % below the 50-ohm target, outside the line's +/-10 % tolerance
+    bad["line"]["field_check"] = dict(front["candidates"][0]["line"]["field_check"], z0_ohm=40.2,
+                                      closed_form_error_pct=25.4)
+    (tmp_path / "front.json").write_text(json.dumps(front), encoding="utf-8")
+    assert main(["report", str(tmp_path), "--quiet"]) == 0
+    page, log = _open(browser_ctx, (tmp_path / "report.html").as_uri())
+    try:
+        flagged = page.evaluate("[...document.querySelectorAll('#cand-table tbody tr.mismatch')]"
+                                ".map(r => Number(r.dataset.i))")
+        assert flagged == [1]
+        ring = page.evaluate("document.getElementById('front').data.filter(t => t.name === 'field mismatch')"
+                             ".map(t => t.x.length)")
+        assert ring == [1]
+        assert not page.locator("#field-flag").is_visible()
+        page.evaluate("window.strainline.select(1)")
+        assert page.locator("#field-flag").is_visible()
+        assert "-19.6 % off target" in page.inner_text("#field-flag")
+    finally:
+        page.close()
+    assert log["errors"] == []

@@ -38,6 +38,50 @@ LABELS: dict[str, str] = {
 }
 
 
+#: Readable names of front.json keys that are not plain words joined by underscores.
+KEY_NAMES: dict[str, str] = {
+    "space_size": "space size", "front_size": "candidates on the front", "dominated_sample":
+    "dominated points kept for the background", "reference_point": "reference point", "stopped": "stopped",
+    "seconds": "seconds", "hypervolume": "hypervolume (normalized objectives)", "impedance": "impedance",
+    "width_range": "width range", "equation_range": "equation validity range", "total_thickness": "total thickness",
+    "fatigue_life": "fatigue life", "gap_space": "gap vs minimum space", "peak_strain": "peak copper strain",
+    "signal_strain": "signal copper strain", "loss": "loss", "material_strain": "material strain",
+    "signal_layer": "signal layer",
+}
+
+
+def readable(key: Any) -> str:
+    """A front.json key as words: objective keys with their unit (``LABELS``), others de-underscored."""
+    k = str(key)
+    return LABELS.get(k) or KEY_NAMES.get(k) or k.replace("_", " ")
+
+
+_CHOICE = re.compile(r"^(?P<kind>[a-z_]+)\[(?P<i>\d+|top|bottom)\]$")
+
+
+def readable_choice(key: str, value: Any) -> tuple[str, Any]:
+    """A search choice (``choices`` in front.json) with 1-based layer names: ``copper[0]`` -> ``L1 copper``,
+    ``film[1]`` -> ``film L2-L3`` (the gap between those copper layers), ``cover[top]`` -> ``top cover``;
+    a value ``copper 2`` -> ``L2``."""
+    m = _CHOICE.match(str(key))
+    if isinstance(value, str):
+        value = re.sub(r"\bcopper (\d+)\b", lambda v: f"L{v.group(1)}", value)
+    if not m:
+        return readable(key), value
+    kind, i = m.group("kind"), m.group("i")
+    if not i.isdigit():
+        return f"{i} {kind.replace('_', ' ')}", value
+    n = int(i) + 1
+    if kind == "copper":
+        return f"L{n} copper", value
+    if kind in ("film", "adhesive", "placement"):
+        what = {"placement": "adhesive side"}.get(kind, kind)
+        return f"{what} L{n}-L{n + 1}", value
+    if kind == "coverage":
+        return f"ground coverage {n}", value
+    return f"{kind.replace('_', ' ')} {n}", value
+
+
 def is_num(value: Any) -> bool:
     """True for an int or float that is not a bool."""
     return isinstance(value, (int, float)) and not isinstance(value, bool)
@@ -70,16 +114,29 @@ def script_json(data: Any) -> str:
 
 
 def fmt(value: Any, digits: int = 4) -> str:
-    """Display form of a number (``digits`` significant figures) or a value."""
+    """Display form of a number or a value.
+
+    Integers are written in full with thousands separators (``269,568``); other numbers to ``digits``
+    significant figures in plain notation (``100``, ``0.3301``, ``34,381``), and in scientific
+    notation only below 1e-3 or from 1e6 up (``1.23e+07``).
+    """
     if value is None:
         return "-"
     if isinstance(value, bool):
         return "yes" if value else "no"
+    if isinstance(value, int):
+        return f"{value:,}" if abs(value) < 10 ** 15 else f"{value:.{digits - 1}e}"
     if is_num(value):
         v = float(value)
+        if not math.isfinite(v):
+            return str(v)
         if v != 0 and (abs(v) >= 1e6 or abs(v) < 1e-3):
             return f"{v:.{digits - 1}e}"
-        return f"{v:.{digits}g}"
+        if v == 0:
+            return "0"
+        decimals = max(0, digits - 1 - math.floor(math.log10(abs(v))))
+        text = f"{round(v, decimals):,.{decimals}f}"
+        return text.rstrip("0").rstrip(".") if "." in text else text
     return str(value)
 
 
@@ -159,5 +216,5 @@ def findings_of(cand: Mapping[str, Any]) -> list[dict[str, str]]:
     return out
 
 
-__all__ = ["CAUTION", "STRAIN_CONVENTION", "LABELS", "is_num", "clean", "script_json", "fmt", "csv_value",
+__all__ = ["CAUTION", "STRAIN_CONVENTION", "LABELS", "KEY_NAMES", "readable", "readable_choice", "is_num", "clean", "script_json", "fmt", "csv_value",
            "first_sentence", "study_value", "study_name", "cautions", "figure", "findings_of"]

@@ -12,6 +12,8 @@ from typing import Any
 
 from strainline.optimizer.outputs.formatting import (
     figure,
+    readable,
+    readable_choice,
     findings_of,
     is_num,
     study_name,
@@ -44,7 +46,8 @@ def decision_table(cands: Sequence[Mapping[str, Any]]) -> list[dict[str, Any]]:
     if all(isinstance(g, Mapping) and g for g in given):
         keys = [k for k in given[0] if all(k in g for g in given)]
         for k in keys:
-            dims.append({"label": str(k), "values": [g[k] for g in given]})
+            pairs = [readable_choice(k, g[k]) for g in given]
+            dims.append({"label": pairs[0][0], "values": [v for _, v in pairs]})
     else:
         n = min(len(c["layers"]) for c in cands)
         for j in range(n):
@@ -172,9 +175,12 @@ def page_data(front: Mapping[str, Any], catalog: Any | None) -> dict[str, Any]:
             "signal": signal_index(c),
             "refs": reference_indices(c),
             "findings": findings_of(c),
+            "field_flag": field_flag(c, front, catalog),
         })
     objectives = [k for k in cands[0]["objectives"] if all(is_num(c["objectives"].get(k)) for c in cands)] if cands else []
-    true_objectives = list(objectives)
+    search = front.get("search") if isinstance(front.get("search"), Mapping) else {}
+    declared = search.get("objectives")
+    true_objectives = [str(k) for k in declared] if isinstance(declared, list) and declared else list(objectives)
     objectives += [k for k in ("peak_strain_pct", "total_thickness_um") if k not in objectives]
     dominated = front.get("dominated") or front.get("dominated_points") or []
     dom = []
@@ -198,6 +204,34 @@ def page_data(front: Mapping[str, Any], catalog: Any | None) -> dict[str, Any]:
 
 
 
+
+
+def field_flag(cand: Mapping[str, Any], front: Mapping[str, Any], catalog: Any | None) -> dict[str, Any] | None:
+    """The field-solver check of a candidate judged against its impedance tolerance, or None without one.
+
+    ``mismatch`` is true when the field-solved impedance at the designed width lies outside target +/-
+    tolerance (the closed-form design would miss on its coupon), or the check says the refined width
+    fails; ``error_pct`` is the closed form's error against the field solution.
+    """
+    from strainline.optimizer.outputs.sheetlookup import impedance_tolerance
+
+    line = cand.get("line") if isinstance(cand.get("line"), Mapping) else {}
+    fc = line.get("field_check") or cand.get("field_check")
+    if not isinstance(fc, Mapping):
+        return None
+    if fc.get("error"):
+        return {"mismatch": True, "error_pct": None, "tolerance_pct": None, "text": f"field check not possible: {fc['error']}"}
+    tol = impedance_tolerance(front, line, catalog)[0]
+    z = fc.get("z_diff_ohm") if is_num(fc.get("z_diff_ohm")) else fc.get("z0_ohm")
+    target = line.get("target_ohm") if is_num(line.get("target_ohm")) else fc.get("target_ohm")
+    off = 100.0 * (z / target - 1.0) if is_num(z) and is_num(target) and target else None
+    err = fc.get("closed_form_error_pct") if is_num(fc.get("closed_form_error_pct")) else None
+    mismatch = ((off is not None and tol is not None and abs(off) > tol) or fc.get("refined_ok") is False
+                or fc.get("passed") is False)
+    return {"mismatch": bool(mismatch), "error_pct": err, "tolerance_pct": tol, "off_target_pct": off,
+            "text": (f"field-solved impedance {off:+.1f} % off target" if off is not None else "")
+            + (f" (tolerance +/-{tol:g} %)" if tol is not None and off is not None else "")
+            + ("; " + "; ".join(map(str, fc["reasons"])) if fc.get("passed") is False and fc.get("reasons") else "")}
 
 
 def kv_tree(data: Any) -> dict[str, Any]:
@@ -228,10 +262,21 @@ def search_summary(front: Mapping[str, Any], version: str) -> dict[str, Any]:
         "candidates on the front": len(front["candidates"]),
         "strainline version": version,
     }
+    summary["reference point"] = _readable_keys(summary["reference point"])
     for k, v in search.items():
-        if k not in ("method", "evaluated", "space_size", "feasible", "hypervolume", "reference_point", "seconds"):
-            summary[k] = v
+        if k not in ("method", "evaluated", "space_size", "feasible", "hypervolume", "reference_point", "seconds",
+                     "infeasible", "front_size"):
+            summary[readable(k)] = _readable_keys(v)
     return summary
+
+
+def _readable_keys(value: Any) -> Any:
+    """Nested mapping keys and lists of front.json keys as words."""
+    if isinstance(value, Mapping):
+        return {readable(k): _readable_keys(v) for k, v in value.items()}
+    if isinstance(value, list) and all(isinstance(v, str) and " " not in v for v in value):
+        return [readable(v) for v in value]
+    return value
 
 
 __all__ = ["page_data", "decision_table", "strain_limit_pct", "strain_limits", "kv_tree", "search_summary"]

@@ -21,6 +21,7 @@ from collections.abc import Mapping
 from pathlib import Path
 from typing import Any
 
+from strainline.optimizer.outputs.diagnosis import diagnosis
 from strainline.optimizer.outputs.fileio import write_atomic
 from strainline.optimizer.outputs.formatting import (  # noqa: F401 - re-exported for callers
     CAUTION,
@@ -77,6 +78,7 @@ def build_report_html(front: Mapping[str, Any], catalog: Any | None = None, plot
         search=kv_tree(search_summary(front, version)),
         study=kv_tree(study if study is not None else ""),
         data=embed_json(page_data(front, catalog)),
+        diagnosis=diagnosis(front),
     )
 
 

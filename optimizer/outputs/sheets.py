@@ -33,7 +33,9 @@ from strainline.optimizer.outputs.formatting import (
     study_name,
 )
 from strainline.optimizer.outputs.frontcheck import check_front, try_catalog
-from strainline.optimizer.outputs.sheetdata import CONSTRUCTION_NOTES, Row, Sheet, build_sheet  # noqa: F401
+from strainline.optimizer.outputs.sheetbend import TO_FILL
+from strainline.optimizer.outputs.sheetdata import CONSTRUCTION_NOTES, TOLERANCE_METHOD, build_sheet  # noqa: F401
+from strainline.optimizer.outputs.sheetrows import PRECISION_NOTE, Row, Sheet
 from strainline.optimizer.outputs.templating import inline_style, render, static_text
 
 #: CSV columns.
@@ -73,6 +75,10 @@ def _rows(rows: list[Row]) -> list[dict[str, Any]]:
     return [{"quantity": r.quantity, "cell": _cell(r, 5), "unit": r.unit, "note": r.note} for r in rows]
 
 
+#: Rows shown as full-width lines under the tables (long text).
+_WIDE = ("equation used", "field-solver check", "impedance test coupon", "coupon test method")
+
+
 def sheet_html(sheet: Sheet) -> str:
     """The printable sheet (one or two A4 pages)."""
     stack = []
@@ -81,26 +87,38 @@ def sheet_html(sheet: Sheet) -> str:
         stack.append({
             "n": i, "layer": _cell(r["layer"]), "function": _cell(r["function"]),
             "spec": _spec_cell(r["specification"]), "thickness": _cell(r["thickness_um"], 4),
-            "tolerance": _cell(r["tolerance_um"], 2),
+            "tolerance": _cell(r["tolerance_um"], 3),
+            "dk": [_cell(r["dk"], 3), _cell(r["df"], 3)] if "dk" in r else None,
+            "dk_note": r["dk"].note if "dk" in r else "",
+            "dk_at": r["dk"].note.replace(" (catalog)", "") if "dk" in r else "",
             "copper": [_cell(r["copper_weight"]), _cell(r["copper_type"]), _cell(r["ipc4562_grade"]),
                        _cell(r["coverage"], 3, 100.0)] if cu else None})
+    at = {r["dk"].note for r in sheet.stackup if "dk" in r}
+    dk_head = "Dk / Df " + at.pop().replace(" (catalog)", "") if len(at) == 1 else "Dk / Df"
+    if dk_head != "Dk / Df":                  # one frequency for every dielectric: said once, in the heading
+        for row in stack:
+            row["dk_at"] = ""
     total = {r.quantity: r for r in sheet.section("total")}
-    tot_tol = total.get("total thickness tolerance (+/-)")
-    wide = [r for r in sheet.section("impedance") + sheet.section("field-check")
-            if r.quantity in ("equation used", "field-solver check")]
+    cap = total.get("total thickness tolerance (+/-)")
+    worst = total.get("total thickness tolerance, worst case (+/-)")
+    rss = total.get("total thickness tolerance, root-sum-square (+/-)")
+    wide = [r for r in sheet.section("impedance") + sheet.section("field-check") if r.quantity in _WIDE]
     imp = [r for r in sheet.section("impedance") if r not in wide]
     checks = [r for r in sheet.section("field-check") if r not in wide]
     cells = [{"quantity": r.quantity, "cell": _cell(r, 5), "unit": r.unit} for r in checks]
     return render(
         "sheet.html", sheet=sheet, css=inline_style(static_text("sheet.css")), cautions=sheet.cautions,
-        stack=stack, total=_cell(total.get("total thickness")), total_tol=_cell(tot_tol, 2),
-        total_tol_note=tot_tol.note if tot_tol else "",
+        stack=stack, dk_head=dk_head, total=_cell(total.get("total thickness")),
+        total_tol=_cell(worst if worst is not None else cap, 3),
+        rss=_cell(rss, 3) if rss is not None else None, cap=_cell(cap, 3) if cap is not None else None,
+        cap_note=cap.note if cap else "", method=TOLERANCE_METHOD,
         impedance=_rows(imp), bend=_rows(sheet.section("bend") + sheet.section("objectives")),
+        drawing=_rows(sheet.section("drawing")),
         wide=[{"quantity": r.quantity, "key": r.key, "value": csv_value(r.value), "text": r.value, "note": r.note}
               for r in wide],
         check_pairs=[cells[i:i + 2] for i in range(0, len(cells), 2)],
         check_note=next((r.note for r in checks if r.note), ""),
-        notes=sheet.notes, convention=STRAIN_CONVENTION)
+        notes=sheet.notes, convention=STRAIN_CONVENTION, precision=PRECISION_NOTE, to_fill=TO_FILL)
 
 
 def index_html(front: Mapping[str, Any], sheets: list[Sheet]) -> str:

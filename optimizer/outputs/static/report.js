@@ -10,10 +10,11 @@ function fmt(v, d) {
   if (v === null || v === undefined) return '-';
   if (Array.isArray(v)) return v.map(function (x) { return fmt(x, d); }).join(' / ');
   if (typeof v !== 'number') return String(v);
+  if (Number.isInteger(v) && Math.abs(v) < 1e15) return v.toLocaleString('en-US');
   d = d || 4;
   var a = Math.abs(v);
   if (v !== 0 && (a >= 1e6 || a < 1e-3)) return v.toExponential(d - 1);
-  return String(Number(v.toPrecision(d)));
+  return Number(v.toPrecision(d)).toLocaleString('en-US', {maximumFractionDigits: 20});
 }
 function esc(s) { return String(s).replace(/[&<>"]/g, function (c) {
   return {'&': '&amp;', '<': '&lt;', '>': '&gt;', '"': '&quot;'}[c]; }); }
@@ -37,15 +38,28 @@ function fill(id, children) {
 }
 function sheetHref(c) { return 'handoff/' + encodeURIComponent(c.id) + '.html'; }
 function efmt(v, d) { return esc(fmt(v, d)); }
+// the palette lives in report.css (custom properties --family-<name>): one place, with its reason
+(function () {
+  var css = getComputedStyle(document.documentElement);
+  Object.keys(D.colours).forEach(function (fam) {
+    var v = css.getPropertyValue('--family-' + fam).trim();
+    if (v) D.colours[fam] = v;
+  });
+  D.signalColour = css.getPropertyValue('--signal-trace').trim() || '#d1343b';
+})();
 var TO = D.true_objectives || D.objectives;
-var state = {x: 'total_thickness_um', y: 'peak_strain_pct', colour: null, selected: 0};
+var state = {x: 'total_thickness_um', y: 'peak_strain_pct', colour: null, selected: 0, compare: []};
 if (TO.indexOf('peak_strain_pct') < 0 && TO.length >= 2) {
   // peak strain is not optimised in this study: open on a pair of its own objectives
   var strainKey = TO.filter(function (k) { return /strain/.test(k); })[0];
   if (strainKey && TO.indexOf('total_thickness_um') >= 0) { state.y = strainKey; state.x = 'total_thickness_um'; }
   else { state.y = TO[0]; state.x = TO[1]; }
 }
-window.strainline = {data: D, state: state, select: select, renders: 0};
+window.strainline = {data: D, state: state, select: select, compare: compare, renders: 0};
+if (!C.length) {           // nothing feasible: the page shows the diagnosis panel only, no empty plots
+  window.strainline.renders = 1;
+  return;
+}
 
 // ----- colour quantities
 var colourOpts = [];
@@ -100,8 +114,10 @@ function markPairs() {
     bt.classList.toggle('on', bt.dataset.x === state.x && bt.dataset.y === state.y);
   });
   var off = [state.x, state.y].filter(function (k) { return TO.indexOf(k) < 0; });
+  var nbad = C.filter(function (c) { return c.field_flag && c.field_flag.mismatch; }).length;
   document.getElementById('front-note').textContent = (D.dominated.length ?
-    'Faint grey: dominated feasible points kept by the run. ' : '') + (off.length ?
+    'Faint grey: dominated feasible points kept by the run. ' : '') + (nbad ?
+    'Orange squares: the field-solver check disagrees with the closed form beyond the tolerance. ' : '') + (off.length ?
     label(off[0]) + ' is not an objective of this study, so some front points look dominated in this view.' : '');
 }
 
@@ -136,6 +152,10 @@ function drawFront() {
     text: C.map(hoverText), hovertemplate: '%{text}<extra></extra>', customdata: C.map(function (c, i) { return i; }),
     marker: {size: 11, color: cv.vals, colorscale: 'Viridis', showscale: true, line: {width: 1, color: '#223'},
              colorbar: {title: {text: esc(cv.title), side: 'right'}, thickness: 14}}});
+  var bad = C.map(function (c, i) { return i; }).filter(function (i) { return C[i].field_flag && C[i].field_flag.mismatch; });
+  if (bad.length) traces.push({type: 'scatter', mode: 'markers', name: 'field mismatch', hoverinfo: 'skip',
+    x: bad.map(function (i) { return C[i].objectives[state.x]; }), y: bad.map(function (i) { return C[i].objectives[state.y]; }),
+    marker: {size: 17, symbol: 'square-open', color: '#D55E00', line: {width: 2.5, color: '#D55E00'}}});
   var s = C[state.selected];
   if (s) traces.push({type: 'scatter', mode: 'markers', name: 'selected', hoverinfo: 'skip',
     x: [s.objectives[state.x]], y: [s.objectives[state.y]],
@@ -184,7 +204,7 @@ function drawSection(c) {
       var isSig = !cop || k === 0;
       traces.push({type: 'scatter', mode: 'lines', x: [r[0], r[1], r[1], r[0], r[0]],
         y: [l.bottom_um, l.bottom_um, l.top_um, l.top_um, l.bottom_um], fill: 'toself',
-        fillcolor: isSig ? '#d1343b' : D.colours.copper, line: {color: '#611', width: 0.8},
+        fillcolor: isSig ? D.signalColour : D.colours.copper, line: {color: '#611', width: 0.8},
         hoveron: 'fills', hoverinfo: 'text', name: isSig ? 'signal' : 'coplanar ground',
         text: (isSig ? 'signal trace ' : 'coplanar ground ') + efmt(w) + ' um wide'});
     });
@@ -197,12 +217,11 @@ function drawSection(c) {
     anns.push({x: x1, y: (l.top_um + l.bottom_um) / 2, xref: 'x', yref: 'y', text: 'reference: ' + esc(l.name),
       showarrow: true, arrowhead: 2, ax: 40, ay: 0, xanchor: 'left', font: {size: 11, color: '#1d4f91'}});
   });
-  var na = c.bend.neutral_axis_um;
-  var shapes = [];
-  (Array.isArray(na) ? na : [na]).forEach(function (y) {
-    if (typeof y !== 'number') return;
+  var shapes = [], axes = neutralAxes(c);
+  axes.forEach(function (y, k) {
     shapes.push({type: 'line', x0: x0, x1: x1, y0: y, y1: y, line: {color: '#111', width: 1.6, dash: 'dash'}});
-    anns.push({x: x0, y: y, text: 'neutral axis', showarrow: false, xanchor: 'left', yanchor: 'bottom', font: {size: 11}});
+    anns.push({x: x0, y: y, text: axes.length > 1 ? 'leaf ' + (k + 1) + ' neutral axis' : 'neutral axis',
+      showarrow: false, xanchor: 'left', yanchor: 'bottom', font: {size: 11}});
   });
   Plotly.react('section', traces, {
     title: {text: 'Cross-section to scale (' + esc(c.id) + ')', font: {size: 13}},
@@ -221,14 +240,32 @@ function familyOfFill(c, i) {
   return (ad[0] || nb[0] || {family: 'other'}).family;
 }
 
+function leaves(c) {
+  // leaf number of each layer (1 = top; air gaps separate leaves) and the height span of each leaf
+  var leaf = 1, of = [], spans = [];
+  c.layers.forEach(function (l, i) {
+    if (l.kind === 'air-gap') { of.push(null); if (i > 0 && of[i - 1] !== null) leaf += 1; return; }
+    of.push(leaf);
+    var sp = spans[leaf - 1] || (spans[leaf - 1] = {bottom: l.bottom_um, top: l.top_um});
+    sp.bottom = Math.min(sp.bottom, l.bottom_um); sp.top = Math.max(sp.top, l.top_um);
+  });
+  return {of: of, spans: spans};
+}
+
+function neutralAxes(c) {
+  var na = c.bend.neutral_axis_um;
+  return (Array.isArray(na) ? na : [na]).filter(function (y) { return typeof y === 'number'; });
+}
+
 function drawStrain(c) {
   var L = c.layers, total = L.length ? L[0].top_um : 0;
   var traces = [], shapes = [], anns = [];
+  var lv = leaves(c), leafOf = lv.of, many = lv.spans.length > 1;
   L.forEach(function (l, i) {
     if (l.thickness_um <= 0 || l.kind === 'air-gap' || typeof l.strain_top_pct !== 'number') return;
     var isCu = l.kind === 'copper';
     traces.push({type: 'scatter', mode: isCu ? 'lines+markers' : 'lines', x: [l.strain_bottom_pct, l.strain_top_pct],
-      y: [l.bottom_um, l.top_um], line: {color: isCu ? (i === c.signal ? '#d1343b' : D.colours.copper) : '#8896a5',
+      y: [l.bottom_um, l.top_um], line: {color: isCu ? (i === c.signal ? D.signalColour : D.colours.copper) : (leafOf[i] % 2 ? '#8896a5' : '#4f6d8a'),
       width: isCu ? 4 : 1.5}, marker: {size: 7, symbol: 'diamond'}, name: esc(l.name), hoverinfo: 'text',
       text: [esc(l.name) + ' bottom face: ' + efmt(l.strain_bottom_pct) + ' %', esc(l.name) + ' top face: ' + efmt(l.strain_top_pct) + ' %']});
   });
@@ -240,12 +277,21 @@ function drawStrain(c) {
     anns.push({x: lim, y: total, text: 'strain limit +/-' + efmt(lim, 3) + ' %', showarrow: false, xanchor: 'right',
       yanchor: 'bottom', font: {size: 11, color: '#c0392b'}, hovertext: esc(D.strain_limit_basis)});
   }
-  var na = c.bend.neutral_axis_um;
-  (Array.isArray(na) ? na : [na]).forEach(function (y) {
-    if (typeof y !== 'number') return;
-    shapes.push({type: 'line', xref: 'paper', x0: 0, x1: 1, y0: y, y1: y, line: {color: '#111', width: 1.2, dash: 'dash'}});
+  L.forEach(function (l) {
+    if (l.kind !== 'air-gap') return;
+    shapes.push({type: 'rect', xref: 'paper', x0: 0, x1: 1, y0: l.bottom_um, y1: l.top_um, line: {width: 0},
+      fillcolor: 'rgba(150,160,170,0.18)', layer: 'below'});
+    anns.push({xref: 'paper', x: 0.01, y: (l.bottom_um + l.top_um) / 2, text: 'air gap: leaves slide apart',
+      showarrow: false, xanchor: 'left', font: {size: 10, color: '#666'}});
   });
-  shapes.push({type: 'line', x0: 0, x1: 0, y0: 0, y1: total, line: {color: '#bbb', width: 1}});
+  neutralAxes(c).forEach(function (y, k) {
+    var sp = many ? lv.spans[k] : null;
+    shapes.push({type: 'line', xref: 'paper', x0: 0, x1: 1, y0: y, y1: y, line: {color: '#111', width: 1.2, dash: 'dash'}});
+    anns.push({xref: 'paper', x: 0.99, y: y, text: many ? 'leaf ' + (k + 1) + ' neutral axis' : 'neutral axis',
+      showarrow: false, xanchor: 'right', yanchor: 'bottom', font: {size: 10.5}});
+    if (sp) shapes.push({type: 'line', x0: 0, x1: 0, y0: sp.bottom, y1: sp.top, line: {color: '#999', width: 1}});
+  });
+  if (!many) shapes.push({type: 'line', x0: 0, x1: 0, y0: 0, y1: total, line: {color: '#bbb', width: 1}});
   Plotly.react('strain', traces, {
     title: {text: 'Strain through the thickness (' + esc(c.id) + ')', font: {size: 13}},
     margin: {l: 56, r: 12, t: 34, b: 40}, showlegend: false, hovermode: 'closest', shapes: shapes, annotations: anns,
@@ -292,6 +338,11 @@ function drawLayerTable(c) {
   } else if (fc && fc.error) {
     parts.push('field check not possible: ' + fc.error);
   }
+  var ff = c.field_flag;
+  fill('field-flag', ff && ff.mismatch ? [el('b', null, 'Field check disagrees: '), ff.text,
+    typeof ff.error_pct === 'number' ? '; the closed form is ' + fmt(ff.error_pct, 3) + ' % off the field solution' : '',
+    '. Use the field-refined width or a coupon before quoting.'] : []);
+  document.getElementById('field-flag').style.display = ff && ff.mismatch ? '' : 'none';
   var figs = [];
   parts.forEach(function (p) { figs.push(p, ' \u00b7 '); });
   figs.push(el('a', {href: sheetHref(c)}, 'fabricator sheet'));
@@ -302,23 +353,41 @@ function drawLayerTable(c) {
     return c.layers.some(function (x) { return x.family === fm; }); });
   fill('legend', leg.map(function (fm) {
     return el('span', null, [el('i', {style: 'background:' + D.colours[fm]}), fm]); }).concat([
-    el('span', null, [el('i', {style: 'background:#d1343b'}), 'signal trace']),
+    el('span', null, [el('i', {style: 'background:' + D.signalColour}), 'signal trace']),
     el('span', null, 'hatching: partial copper coverage')]));
 }
 
 function drawParcoords() {
   var cv = colourValues();
+  // plotly draws parcoords on a canvas as wide as the window: fit the axes into the card, and shorten long
+  // category names in the middle so neighbouring axes' names do not run into each other
+  var avail = document.getElementById('parcoords').clientWidth - 200;
+  var maxChars = Math.max(8, Math.min(22, Math.floor((avail / Math.max(1, D.decisions.length - 1) - 14) / 6.2)));
   var dims = D.decisions.map(function (d) {
     if (!d.categorical) return {label: esc(d.label), values: d.values};
     var cats = Array.from(new Set(d.values)).sort();
+    var short = function (t) {
+      t = String(t);
+      var h = Math.floor((maxChars - 1) / 2);
+      return t.length > maxChars ? t.slice(0, h) + '\u2026' + t.slice(t.length - (maxChars - 1 - h)) : t;
+    };
     return {label: esc(d.label), values: d.values.map(function (v) { return cats.indexOf(v); }),
-            tickvals: cats.map(function (v, i) { return i; }), ticktext: cats.map(esc),
+            tickvals: cats.map(function (v, i) { return i; }), ticktext: cats.map(function (t) { return esc(short(t)); }),
             range: [-0.5, Math.max(cats.length - 0.5, 0.5)]};
   });
   if (!dims.length) return;
-  Plotly.react('parcoords', [{type: 'parcoords', dimensions: dims, labelangle: -28, labelside: 'top',
-    line: {color: cv.vals, colorscale: 'Viridis', showscale: true, colorbar: {title: {text: esc(cv.title)}}}}],
-    {margin: {l: 70, r: 90, t: 110, b: 30}}, {displaylogo: false, responsive: true});
+  // room for the first axis's tick labels on the left and the labels on top, so nothing is clipped
+  // and columns far enough apart that the category names of neighbouring axes do not run into each other
+  var widest = function (list) { return list.reduce(function (m, t) { return Math.max(m, String(t).length); }, 0); };
+  var left = Math.min(260, Math.max(70, 6.2 * widest(dims[0].ticktext || []) + 16));
+  var right = Math.min(260, Math.max(110, 6.2 * widest(dims[dims.length - 1].ticktext || []) + 16));
+  var top = Math.min(200, Math.max(90, 4.5 * widest(dims.map(function (d) { return d.label; })) + 30));
+  var box = document.getElementById('parcoords');
+  box.style.height = Math.max(430, 330 + top) + 'px';
+  Plotly.react('parcoords', [{type: 'parcoords', dimensions: dims, labelangle: -30, labelside: 'top',
+    labelfont: {size: 11}, tickfont: {size: 10},
+    line: {color: cv.vals, colorscale: 'Viridis', showscale: true, colorbar: {title: {text: esc(cv.title)}, x: 1.0, xpad: 40}}}],
+    {margin: {l: left, r: right, t: top, b: 30}}, {displaylogo: false, responsive: true});
 }
 
 // ----- candidate table (sortable)
@@ -336,6 +405,8 @@ col('field_error_pct', 'closed-form error vs field (%)', function (c) {
 col('cycles_to_failure', 'cycles to failure', function (c) { return c.bend.cycles_to_failure; });
 col('radius_to_thickness', 'R / thickness', function (c) { return c.bend.radius_to_thickness; });
 col('neutral_axis_um', 'neutral axis (um)', function (c) { return c.bend.neutral_axis_um; });
+col('field_flag', 'field check', function (c) {
+  return c.field_flag ? (c.field_flag.mismatch ? 'MISMATCH ' : 'ok ') + (c.field_flag.text || '') : null; });
 col('findings', 'findings', function (c) { return c.findings.length; });
 var sortState = {k: null, dir: 1};
 function drawTable() {
@@ -356,11 +427,13 @@ function drawTable() {
     return el('th', {'data-k': t.k, 'class': cls}, t.t); }).concat([el('th', {'class': 't'}, 'sheet')])));
   var body = el('tbody', null, idx.map(function (i) {
     var c = C[i];
-    return el('tr', {'data-i': String(i), 'class': i === state.selected ? 'sel' : ''}, tcols.map(function (t) {
+    var cls = (i === state.selected ? 'sel' : '') + (c.field_flag && c.field_flag.mismatch ? ' mismatch' : '');
+    return el('tr', {'data-i': String(i), 'class': cls.trim()}, tcols.map(function (t) {
       var v = t.get(c);
       return el('td', {'class': t.s || typeof v !== 'number' ? 't' : '', 'data-v': v === undefined || v === null ? '' : String(v)},
         fmt(v));
-    }).concat([el('td', {'class': 't'}, el('a', {href: sheetHref(c)}, 'sheet'))]));
+    }).concat([el('td', {'class': 't'}, [el('a', {href: sheetHref(c)}, 'sheet'), ' ',
+      el('label', {'class': 'cmp'}, [el('input', {type: 'checkbox', 'data-cmp': String(i)}), 'compare'])])]));
   }));
   var tb = fill('cand-table', [head, body]);
   Array.prototype.forEach.call(tb.querySelectorAll('thead th[data-k]'), function (th) {
@@ -371,9 +444,23 @@ function drawTable() {
   });
   Array.prototype.forEach.call(tb.querySelectorAll('tbody tr'), function (tr) {
     tr.addEventListener('click', function (ev) {
-      if (ev.target.tagName === 'A') return;
+      if (ev.target.tagName === 'A' || ev.target.tagName === 'INPUT' || ev.target.tagName === 'LABEL') return;
       select(Number(tr.getAttribute('data-i')));
     });
+  });
+}
+
+function syncCompareBoxes() {
+  Array.prototype.forEach.call(document.querySelectorAll('#cand-table input[data-cmp]'), function (cb) {
+    cb.checked = state.compare.indexOf(Number(cb.getAttribute('data-cmp'))) >= 0;
+    cb.onchange = function () {
+      var i = Number(cb.getAttribute('data-cmp')), k = state.compare.indexOf(i);
+      var next = state.compare.slice();
+      if (cb.checked && k < 0) next.push(i);
+      if (!cb.checked && k >= 0) next.splice(k, 1);
+      if (next.length > 4) next.shift();
+      compare(next);
+    };
   });
 }
 
@@ -381,7 +468,84 @@ function select(i) {
   if (!(i >= 0 && i < C.length)) return;
   state.selected = i;
   var c = C[i];
-  drawSection(c); drawStrain(c); drawLayerTable(c); drawFront(); drawTable();
+  drawSection(c); drawStrain(c); drawLayerTable(c); drawFront(); drawTable(); syncCompareBoxes();
+  window.strainline.renders += 1;
+}
+
+// ----- comparison: 2-4 candidates side by side, cross-sections and strain profiles on shared axes
+var CMP_COLOURS = ['#0072B2', '#D55E00', '#009E73', '#CC79A7'];   // Okabe-Ito hues, one per compared candidate
+function compare(list) {
+  list = (list || []).filter(function (i, k, a) { return i >= 0 && i < C.length && a.indexOf(i) === k; }).slice(0, 4);
+  state.compare = list;
+  var card = document.getElementById('compare-card');
+  syncCompareBoxes();
+  if (list.length < 2) {
+    fill('compare-note', 'Tick 2 to 4 candidates in the table below ("compare") to see them side by side.');
+    Plotly.purge('compare-section'); Plotly.purge('compare-strain'); fill('compare-table', []);
+    card.classList.add('empty');
+    return;
+  }
+  card.classList.remove('empty');
+  fill('compare-note', 'Heights to scale on a shared axis; each column is one candidate (not to scale across).');
+  var top = Math.max.apply(null, list.map(function (i) { return C[i].layers.length ? C[i].layers[0].top_um : 0; }));
+  var traces = [], shapes = [], anns = [];
+  list.forEach(function (i, k) {
+    var c = C[i];
+    c.layers.forEach(function (l, j) {
+      if (l.thickness_um <= 0) return;
+      var col = l.kind === 'copper' ? (j === c.signal ? D.signalColour : D.colours.copper) : (D.colours[l.family] || D.colours.other);
+      traces.push({type: 'scatter', mode: 'lines', x: [k - 0.38, k + 0.38, k + 0.38, k - 0.38, k - 0.38],
+        y: [l.bottom_um, l.bottom_um, l.top_um, l.top_um, l.bottom_um], fill: 'toself', fillcolor: col,
+        line: {color: '#555', width: 0.5, dash: l.kind === 'air-gap' ? 'dot' : 'solid'}, hoveron: 'fills',
+        hoverinfo: 'text', name: esc(c.id), text: esc(c.id) + ': ' + esc(l.name) + ' (' + esc(l.material) + '), ' +
+        efmt(l.thickness_um) + ' um'});
+    });
+    neutralAxes(c).forEach(function (y) {
+      shapes.push({type: 'line', x0: k - 0.45, x1: k + 0.45, y0: y, y1: y, line: {color: '#111', width: 1.4, dash: 'dash'}});
+    });
+    anns.push({x: k, y: c.layers.length ? c.layers[0].top_um : 0, text: esc(c.id), showarrow: false, yanchor: 'bottom',
+      font: {size: 12, color: CMP_COLOURS[k]}});
+  });
+  Plotly.react('compare-section', traces, {
+    title: {text: 'Cross-sections (heights to scale, dashed: neutral axes)', font: {size: 13}},
+    margin: {l: 56, r: 12, t: 34, b: 40}, showlegend: false, hovermode: 'closest', shapes: shapes, annotations: anns,
+    xaxis: {tickvals: list.map(function (i, k) { return k; }), ticktext: list.map(function (i) { return esc(C[i].id); }),
+            range: [-0.6, list.length - 0.4], zeroline: false, showgrid: false},
+    yaxis: {title: {text: 'height from bottom face (um)'}, range: [-top * 0.04, top * 1.1], zeroline: false},
+    plot_bgcolor: '#fff'}, {displaylogo: false, responsive: true});
+  var st = [];
+  list.forEach(function (i, k) {
+    var c = C[i], first = true;
+    c.layers.forEach(function (l) {
+      if (l.thickness_um <= 0 || l.kind === 'air-gap' || typeof l.strain_top_pct !== 'number') return;
+      st.push({type: 'scatter', mode: 'lines', x: [l.strain_bottom_pct, l.strain_top_pct], y: [l.bottom_um, l.top_um],
+        line: {color: CMP_COLOURS[k], width: l.kind === 'copper' ? 4 : 1.6}, name: esc(c.id), legendgroup: c.id,
+        showlegend: first, hoverinfo: 'text',
+        text: [esc(c.id) + ' ' + esc(l.name) + ': ' + efmt(l.strain_bottom_pct) + ' %',
+               esc(c.id) + ' ' + esc(l.name) + ': ' + efmt(l.strain_top_pct) + ' %']});
+      first = false;
+    });
+  });
+  Plotly.react('compare-strain', st, {
+    title: {text: 'Strain through the thickness, same axes (thick: copper)', font: {size: 13}},
+    margin: {l: 56, r: 12, t: 34, b: 40}, hovermode: 'closest', legend: {orientation: 'h', y: -0.18},
+    xaxis: {title: {text: 'strain (%), tension positive'}, zeroline: true, zerolinecolor: '#bbb'},
+    yaxis: {title: {text: 'height from bottom face (um)'}, range: [-top * 0.04, top * 1.1], zeroline: false},
+    plot_bgcolor: '#fbfcfd'}, {displaylogo: false, responsive: true});
+  var rowsDef = [['peak copper strain (%)', function (c) { return c.objectives.peak_strain_pct; }],
+    ['total thickness (um)', function (c) { return c.objectives.total_thickness_um; }]];
+  TO.forEach(function (k) {
+    if (k !== 'peak_strain_pct' && k !== 'total_thickness_um') rowsDef.push([label(k), function (c) { return c.objectives[k]; }]);
+  });
+  rowsDef.push(['trace width (um)', function (c) { return c.line.width_um; }],
+    ['cycles to failure', function (c) { return c.bend.cycles_to_failure; }],
+    ['neutral axis (um)', function (c) { return c.bend.neutral_axis_um; }],
+    ['field check', function (c) { return c.field_flag ? c.field_flag.text : null; }]);
+  fill('compare-table', [el('thead', null, el('tr', null, [el('th', {'class': 't'}, '')].concat(list.map(function (i, k) {
+    return el('th', {style: 'color:' + CMP_COLOURS[k]}, C[i].id); })))),
+    el('tbody', null, rowsDef.map(function (r) {
+      return el('tr', null, [el('th', {'class': 't'}, r[0])].concat(list.map(function (i) { return el('td', null, fmt(r[1](C[i]))); })));
+    }))]);
   window.strainline.renders += 1;
 }
 
@@ -399,12 +563,14 @@ if (C.length) {
   var best = 0;
   C.forEach(function (c, i) { if (c.objectives.peak_strain_pct < C[best].objectives.peak_strain_pct) best = i; });
   select(best);
-} else {
-  drawFront();
-  document.getElementById('cand-title').textContent = 'No feasible candidate in this run' +
-    (D.infeasible ? ': ' + D.infeasible : '');
-  document.querySelector('#candidate-card .row').style.display = 'none';
-  document.getElementById('parcoords').parentNode.style.display = 'none';
+  // open the comparison on the candidates at the ends of the front (least strain, thinnest) when they differ
+  var ends = [best];
+  TO.concat(['total_thickness_um']).forEach(function (k) {
+    var m = 0;
+    C.forEach(function (c, i) { if (c.objectives[k] < C[m].objectives[k]) m = i; });
+    if (ends.indexOf(m) < 0 && ends.length < 3) ends.push(m);
+  });
+  compare(ends.length > 1 ? ends : []);
 }
 document.getElementById('front').on('plotly_click', function (ev) {
   var p = ev.points.filter(function (p) { return p.data.name === 'candidates'; })[0];

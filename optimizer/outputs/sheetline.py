@@ -1,0 +1,151 @@
+"""The controlled-impedance part of a handoff sheet: the line as designed, its tolerances, the etch
+tolerance of the trace, the loss at its frequency, the test coupon and the field-solver check."""
+from __future__ import annotations
+
+from collections.abc import Mapping
+from typing import Any
+
+from strainline.optimizer.outputs.formatting import fmt, is_num, study_value
+from strainline.optimizer.outputs.sheetlookup import (
+    dk_frequency_ghz,
+    impedance_tolerance,
+    min_feature_um,
+    weight_of,
+    width_tolerance,
+)
+from strainline.optimizer.outputs.sheetrows import Sheet, derived
+
+#: The test method named on every sheet for the impedance coupon.
+COUPON_METHOD = "time-domain reflectometry (TDR), IPC-TM-650 2.5.5.7"
+
+
+def impedance_rows(sheet: Sheet, cand: Mapping[str, Any], front: Mapping[str, Any], catalog: Any | None,
+                   sig: int | None, refs: list[int]) -> None:
+    """Add the impedance, etch, loss, coupon and field-check rows of one candidate to ``sheet``."""
+    layers = cand["layers"]
+    line = cand.get("line") or {}
+    if not line:
+        return
+    pair = "coupled" in str(line.get("type", ""))
+    if line.get("layer_name"):
+        sheet.add("impedance", "line", "signal layer", line["layer_name"], "", "line.layer_name")
+    else:
+        sheet.add("impedance", "line", "signal layer", line.get("layer"), "", "line.layer")
+    sheet.add("impedance", "line", "line type", line.get("type"), "", "line.type")
+    sheet.add("impedance", "line", "trace width as designed", line.get("width_um"), "um", "line.width_um")
+    if line.get("gap_um") is not None:
+        sheet.add("impedance", "line", "pair gap (edge to edge) as designed" if pair else "gap as designed",
+                  line.get("gap_um"), "um", "line.gap_um")
+    target = line.get("target_ohm")
+    tkey = "line.target_ohm"
+    if target is None:
+        target, tkey = study_value(front, "line", "target_ohm"), ""
+    sheet.add("impedance", "line", "target differential impedance" if pair else "target impedance",
+              target, "ohm", tkey, "" if tkey else "from the study (line.target_ohm)")
+    tol, tolkey, tolnote = impedance_tolerance(front, line, catalog)
+    sheet.add("impedance", "line", "impedance tolerance (+/-)", tol, "%", tolkey, tolnote)
+    ref_names = ", ".join(str(layers[i].get("name")) for i in refs if i != sig) or \
+        ("coplanar grounds on the signal layer" if refs == [sig] else "-")
+    sheet.add("impedance", "line", "reference planes", ref_names, "")
+    if pair:
+        sheet.add("impedance", "line", "differential impedance (closed form)", line.get("z_diff_ohm"), "ohm",
+                  "line.z_diff_ohm")
+    if line.get("z0_ohm") is not None:
+        sheet.add("impedance", "line", "single-line impedance (closed form)" if pair else
+                  "impedance (closed form)", line.get("z0_ohm"), "ohm", "line.z0_ohm")
+    if line.get("eps_eff") is not None:
+        sheet.add("impedance", "line", "effective permittivity", line.get("eps_eff"), "", "line.eps_eff")
+    geom = line.get("geometry") or {}
+    labels = {"height_um": ("dielectric below the trace", "um"), "height_top_um": ("dielectric above the trace", "um"),
+              "thickness_um": ("trace copper thickness", "um"), "er": ("Dk below (composite)", ""),
+              "er_top": ("Dk above", ""), "cover_um": ("cover over the trace", "um"), "cover_er": ("cover Dk", "")}
+    dk_note = _dk_note(layers, catalog)
+    no_cover = not geom.get("cover_um")
+    for gk, (lab, unit) in labels.items():
+        if gk in ("cover_um", "cover_er") and no_cover:
+            continue
+        if geom.get(gk) is not None:
+            sheet.add("impedance", "geometry", lab, geom[gk], unit, f"line.geometry.{gk}",
+                      dk_note if gk in ("er", "er_top", "cover_er") else "")
+    sheet.add("impedance", "geometry", "equation used", geom.get("method") or line.get("method"), "",
+              "line.geometry.method" if geom.get("method") else "line.method" if line.get("method") else "")
+    fc = line.get("field_check")
+    if isinstance(fc, Mapping):
+        fl = {"z0_ohm": ("field-solved impedance at the designed width", "ohm"),
+              "z_diff_ohm": ("field-solved differential impedance at the designed width", "ohm"),
+              "z_odd_ohm": ("field-solved odd-mode impedance", "ohm"),
+              "z_even_ohm": ("field-solved even-mode impedance", "ohm"),
+              "z_common_ohm": ("field-solved common-mode impedance", "ohm"),
+              "eps_eff": ("field-solved effective permittivity", ""),
+              "eps_eff_even": ("field-solved even-mode effective permittivity", ""),
+              "closed_form_error_pct": ("closed-form error against the field solution", "%"),
+              "error_estimate_pct": ("field-solver error estimate (grid convergence)", "%"),
+              "width_um": ("field-refined width for the target", "um"),
+              "z_refined_ohm": ("field-solved impedance at the refined width", "ohm"),
+              "refined_ok": ("refined width meets the impedance tolerance", ""),
+              "refined_width_in_range": ("refined width inside the study's width range", ""),
+              "error": ("field check not possible", "")}
+        for fk, v in fc.items():
+            if fk in ("index", "seconds", "target_ohm") or (fk == "error" and v is None):
+                continue
+            lab, unit = fl.get(fk, (fk.replace("_", " "), ""))
+            sheet.add("field-check", "field solver", lab, v, unit, f"line.field_check.{fk}",
+                      "2-D quasi-static field solution of the idealised cross-section (strainline --verify)"
+                      if fk in ("z0_ohm", "z_diff_ohm") else "")
+    else:
+        sheet.add("field-check", "field solver", "field-solver check", "not run",
+                  "", "", "run `strainline solve STUDY --verify` to add one")
+
+
+    _etch_and_loss(sheet, line, layers, front, catalog, sig)
+
+
+def _dk_note(layers: list[Mapping[str, Any]], catalog: Any | None) -> str:
+    """Where the Dk values hold: the catalog frequencies of the candidate's dielectrics."""
+    freqs = sorted({f for f in (dk_frequency_ghz(lay.get("material"), catalog) for lay in layers
+                                if lay.get("kind") == "dielectric") if f is not None})
+    if not freqs:
+        return "Dk as given in front.json; its frequency is not in the catalog"
+    return "from catalog Dk values given at " + " / ".join(fmt(f) for f in freqs) + " GHz"
+
+
+def _etch_and_loss(sheet: Sheet, line: Mapping[str, Any], layers: list[Mapping[str, Any]],
+                   front: Mapping[str, Any], catalog: Any | None, sig: int | None) -> None:
+    """Etched-width tolerance, the fabricator's minimum features, loss at its frequency, the coupon."""
+    weight = line.get("copper_weight")
+    if not weight and sig is not None:
+        weight = weight_of(layers[sig], catalog)[0]
+    rel, src = width_tolerance(weight, catalog)
+    w = line.get("width_um")
+    sheet.add("impedance", "etch", "trace width tolerance after etch (+/-)",
+              derived(rel * w, "um") if rel is not None and is_num(w) else None, "um", "",
+              f"{fmt(100 * rel)} % of the width for {weight} copper (catalog fabrication.width_tolerance)"
+              if rel is not None else src)
+    tr, sp = min_feature_um(weight, catalog)
+    if tr is not None:
+        sheet.add("impedance", "etch", f"fabricator minimum trace / space ({weight} copper)",
+                  f"{fmt(tr)} / {fmt(sp)}", "um", "", "catalog fabrication.min_feature")
+    f = line.get("frequency_ghz")
+    if not is_num(f):
+        f = study_value(front, "line", "frequency_ghz")
+    at = f" at {fmt(f)} GHz" if is_num(f) else " (frequency not stated)"
+    if is_num(line.get("loss_db_per_m")):
+        split = [f"{lab} {fmt(line[k])} dB/m" for k, lab in (("conductor_loss_db_per_m", "conductor"),
+                                                              ("dielectric_loss_db_per_m", "dielectric"))
+                 if is_num(line.get(k))]
+        sheet.add("impedance", "loss", "line loss" + at + " (estimate)", line["loss_db_per_m"], "dB/m",
+                  "line.loss_db_per_m", " + ".join(split))
+    yld = line.get("impedance_yield")
+    if isinstance(yld, Mapping) and is_num(yld.get("yield_pct")):
+        sheet.add("impedance", "yield", "share of boards inside the impedance tolerance (estimate)",
+                  yld["yield_pct"], "%", "line.impedance_yield.yield_pct",
+                  "quasi-Monte Carlo over the catalog's fabrication tolerances" +
+                  (f"; largest share of the variance: {yld['dominant']}" if yld.get("dominant") else ""))
+    sheet.add("impedance", "coupon", "impedance test coupon",
+              "one per panel: this line on the same layer, width, gap and reference planes, "
+              "in the same material build", "", "", "IPC-6013 acceptance by coupon; details agreed with the fabricator")
+    sheet.add("impedance", "coupon", "coupon test method", COUPON_METHOD, "", "",
+              "IPC-TM-650 2.5.5.7, characteristic impedance of lines on printed boards by TDR")
+
+
+__all__ = ["impedance_rows", "COUPON_METHOD"]
