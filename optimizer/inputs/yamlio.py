@@ -35,6 +35,8 @@ MAX_CATALOG_BYTES: int = 4_000_000
 MAX_DEPTH: int = 64
 #: Largest number of nodes an aliased document may expand to (catalogs only).
 MAX_EXPANDED_NODES: int = 200_000
+#: Most digits an integer may have (Python refuses to convert more than 4,300; no field needs 20).
+MAX_INT_DIGITS: int = 1_000
 
 _BASE = getattr(yaml, "CSafeLoader", yaml.SafeLoader)
 # YAML 1.2 core-schema floats without a dot or with an unsigned exponent ("2e4", "1e-3", "1.5e3");
@@ -65,7 +67,15 @@ class StrictLoader(_BASE):  # type: ignore[misc, valid-type]
                     seen.add(key_node.value)
         return super().construct_mapping(node, deep=deep)
 
+    def construct_yaml_int(self, node: yaml.Node) -> int:
+        digits = sum(ch.isalnum() for ch in str(node.value))   # hex and octal digits too
+        if digits > MAX_INT_DIGITS:
+            raise _InputError(f"an integer of {digits:,} digits at line {node.start_mark.line + 1}; "
+                              f"the limit is {MAX_INT_DIGITS:,} digits")
+        return super().construct_yaml_int(node)
 
+
+StrictLoader.add_constructor("tag:yaml.org,2002:int", StrictLoader.construct_yaml_int)
 StrictLoader.add_implicit_resolver("tag:yaml.org,2002:float", _FLOAT_12, list("-+0123456789."))
 
 

@@ -46,6 +46,8 @@ def check_front(front: Any, where: str = "front.json") -> dict:
         cid = c.get("id")
         if not isinstance(cid, str) or not _ID_RE.match(cid):
             raise InputError(f"id {cid!r} must be 1-80 letters, digits, '.', '_' or '-'", f"{field}.id")
+        if cid.lower() == "index":   # handoff/index.html is the sheets' index page
+            raise InputError(f"id {cid!r} is reserved for the index page of handoff/", f"{field}.id")
         if cid in seen:
             raise InputError(f"duplicate id {cid!r}", f"{field}.id")
         seen.add(cid)
@@ -101,7 +103,31 @@ def load_front(path: str | Path) -> dict:
         data = json.loads(text)
     except json.JSONDecodeError as exc:
         raise InputError(f"not valid JSON at line {exc.lineno} column {exc.colno}: {exc.msg}", str(path)) from None
+    except RecursionError:
+        too_deep = True
+    else:
+        too_deep = _depth(data) > MAX_DEPTH
+    if too_deep:
+        raise InputError(f"nesting deeper than {MAX_DEPTH} levels; not a strainline front", str(path))
     return check_front(data, str(path))
+
+
+#: Deepest nesting of objects and lists accepted in a front (a front needs about 8 levels).
+MAX_DEPTH = 64
+
+
+def _depth(data: Any) -> int:
+    """Nesting depth of parsed JSON, walked without recursion (stops past :data:`MAX_DEPTH`)."""
+    deepest, stack = 0, [(data, 0)]
+    while stack:
+        node, d = stack.pop()
+        if isinstance(node, (dict, list)):
+            d += 1
+            deepest = max(deepest, d)
+            if deepest > MAX_DEPTH:
+                break
+            stack.extend((v, d) for v in (node.values() if isinstance(node, dict) else node))
+    return deepest
 
 
 def try_catalog(front: Mapping[str, Any] | None = None) -> Any | None:
