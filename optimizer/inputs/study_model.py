@@ -26,6 +26,7 @@ from strainline.optimizer.inputs.modelkit import (
     first_error,
     show,
 )
+from strainline.optimizer.inputs.study_zones import bend_zones
 
 
 class _StudyStyle(Style):
@@ -171,7 +172,12 @@ _LEAVES_SCHEMA = {
                "items": {"type": "array", "minItems": 1, "items": {"type": "integer", "minimum": 1, "maximum": 8}}}]}
 
 
+_ZONE_NAME = {"pattern": r"[A-Za-z0-9][A-Za-z0-9_.-]{0,39}",
+              "rule": "a short name of letters, digits, '-', '_' or '.'"}
+
+
 class BendModel(Base):
+    name: K.text(**_ZONE_NAME, description="the bend zone's name (bends: list; default bend, or bend-<n>)") = None
     inner_radius_mm: K.num(0.0, 1000.0, lo_open=True, description="radius of the inner (mandrel) face of the bend, mm")
     inside: K.choice(("bottom", "top"), description="which face of the stack is the inside of the bend "
                      "(default bottom)") = "bottom"
@@ -275,7 +281,11 @@ class StudyModel(Base):
         "type": "string", "description": "a catalog folder (materials.yaml, copper.yaml, fabrication.yaml) "
         "relative to the study file; default: the built-in catalog"})] = None
     line: LineModel
-    bend: BendModel
+    bend: BendModel = Field(default=None, description="the bend (one zone); or give bends: for several zones")
+    bends: list[BendModel] = Field(default=None, description=(
+        "several bend zones (each as bend:, with a name); strain, life and material limits hold in every zone"))
+    strain_bend: K.text(**_ZONE_NAME, description=(
+        "the bend zone the strain and life objectives read (default: the worst zone)")) = None
     stack: StackModel
     limits: LimitsModel = LimitsModel()
     objectives: K.choice_list(S.OBJECTIVES, description="minimized: peak_strain, signal_strain, thickness, loss; "
@@ -331,7 +341,7 @@ def build_study(data: Any, catalog: Any, file: str = "", folder: Path | None = N
     except ValidationError as exc:
         raise first_error(exc, StudyModel, K.style, where, StudyError) from None
 
-    ln, bd, st = m.line, m.bend, m.stack
+    ln, st = m.line, m.stack
     kind = ln.type
     tol, tol_label = ln.tolerance if ln.tolerance is not None else tolerance_of(10, catalog)
     # The nominal design must sit well inside the tolerance, leaving the rest of the band for
@@ -350,18 +360,9 @@ def build_study(data: Any, catalog: Any, file: str = "", folder: Path | None = N
     line = S.LineSpec(kind, ln.target_ohm, tol, tol_label, nominal / 100.0, ln.width_range_um[0],
                       ln.width_range_um[1], gaps, ln.frequency_ghz, ln.hatch_correction)
 
-    if bd.cycles is None and bd.use == "dynamic":
-        raise err("bend.cycles", "is required for dynamic use (the number of flex cycles the product needs)")
     ncu = st.copper_layers
-    leaves = bd.leaves
-    if leaves is not None:
-        if bd.region != "unbonded":
-            raise err("bend.leaves", f"only applies to an unbonded bend; set bend.region: unbonded "
-                                     f"(it is {bd.region!r})")
-        if leaves != "auto":
-            _check_leaves(leaves, ncu, err)
-    bend = S.BendSpec(bd.inner_radius_mm, bd.inside, bd.use, bd.cycles, bd.motion, bd.region, bd.plane_strain,
-                      leaves, bd.allow_uncovered)
+    zones = bend_zones(m, ncu, err)
+    bend, bd = zones[0], m.bend if m.bend is not None else m.bends[0]
 
     need = S.MIN_COPPER[kind]
     if ncu < need:
@@ -381,7 +382,7 @@ def build_study(data: Any, catalog: Any, file: str = "", folder: Path | None = N
             raise err("stack.signal_layer", f"{st.signal_layer} cannot carry a {kind} line; it must be "
                       f"{'an inner' if inner else 'an outer'} copper layer, one of [{', '.join(map(str, allowed))}]")
     for i, name in enumerate(st.dielectric):
-        if catalog.dielectrics[name].glass_reinforced and bd.use == "dynamic":
+        if catalog.dielectrics[name].glass_reinforced and any(z.use == "dynamic" for z in zones):
             raise err(f"stack.dielectric[{i}]", f"{name!r} is glass-reinforced and does not belong in a dynamic bend "
                                                 "(an install bend allows it above about 10 x thickness)")
     dth = _per_material("stack.dielectric_thickness_um", st.dielectric_thickness_um, st.dielectric, where)
@@ -393,7 +394,7 @@ def build_study(data: Any, catalog: Any, file: str = "", folder: Path | None = N
 
     lim = m.limits
     lvals = {k: getattr(lim, k) for k in S._LIMIT_KEYS}
-    if lvals["min_cycles"] is None and bd.use == "dynamic":
+    if lvals["min_cycles"] is None and bd.use == "dynamic" and len(zones) == 1:
         lvals["min_cycles"] = bd.cycles
     limits = S.Limits(**lvals)
     se = m.search
@@ -403,7 +404,7 @@ def build_study(data: Any, catalog: Any, file: str = "", folder: Path | None = N
         p = Path(m.catalog).expanduser()
         catalog_path = p if p.is_absolute() else (folder or Path(".")) / p
     return S.Study(m.name, m.description, line, bend, stack, limits, m.objectives, search, raw=dict(data),
-                   source=file, catalog_path=catalog_path)
+                   source=file, catalog_path=catalog_path, bends=zones, strain_bend=m.strain_bend)
 
 
 def _per_material(path: str, value: Any, materials: Any, where: Any) -> dict[str, tuple[float, ...]]:
@@ -415,18 +416,3 @@ def _per_material(path: str, value: Any, materials: Any, where: Any) -> dict[str
                 raise StudyError(not_one_of(None, k, list(materials)).message, where(f"{path}.{k}"))
         return {str(k): v for k, v in value.items()}
     return {m: value for m in materials}
-
-
-def _check_leaves(leaves: tuple[tuple[int, ...], ...], ncu: int, err: Any) -> None:
-    """Every copper layer exactly once, each leaf contiguous, leaves in order top to bottom."""
-    flat = [n for g in leaves for n in g]
-    want = list(range(1, ncu + 1))
-    if flat != want:
-        for i, g in enumerate(leaves):
-            for j, n in enumerate(g):
-                if n > ncu:
-                    raise err(f"bend.leaves[{i}][{j}]", f"{n} is out of range; allowed range [1, {ncu}] "
-                                                        "(stack.copper_layers)")
-        raise err("bend.leaves", f"{show([list(g) for g in leaves])} must name every copper layer 1..{ncu} exactly "
-                                 "once, each leaf a run of adjacent layers, leaves in order top to bottom, "
-                                 f"e.g. {[want[: ncu // 2], want[ncu // 2:]] if ncu > 1 else [want]}")

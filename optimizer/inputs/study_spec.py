@@ -54,10 +54,11 @@ OBJECTIVE_RESOLUTION: dict[str, float] = {
 NONE = "none"
 
 # the keys of each section, in file order (the model in study_model.py has exactly these fields)
-_TOP_KEYS = ("name", "description", "catalog", "line", "bend", "stack", "limits", "objectives", "search")
+_TOP_KEYS = ("name", "description", "catalog", "line", "bend", "bends", "strain_bend", "stack", "limits", "objectives",
+             "search")
 _LINE_KEYS = ("type", "target_ohm", "tolerance", "nominal_error_pct", "width_range_um", "gap_um", "frequency_ghz",
               "hatch_correction")
-_BEND_KEYS = ("inner_radius_mm", "inside", "use", "cycles", "motion", "region", "leaves", "allow_uncovered",
+_BEND_KEYS = ("name", "inner_radius_mm", "inside", "use", "cycles", "motion", "region", "leaves", "allow_uncovered",
               "plane_strain")
 _STACK_KEYS = (
     "copper_layers", "symmetric", "signal_layer", "order", "copper_weights", "copper_types",
@@ -108,6 +109,8 @@ class BendSpec:
     leaves: None | str | tuple[tuple[int, ...], ...] = None
     #: A dynamic bend needs a cover on both outer faces unless this waives it.
     allow_uncovered: bool = False
+    #: The zone's name (``bends[i].name``; "bend" for the single ``bend:`` form).
+    name: str = "bend"
 
 
 @dataclass(frozen=True)
@@ -172,3 +175,23 @@ class Study:
     source: str = ""
     #: The study's ``catalog:`` resolved against the study file's folder (None: the built-in one).
     catalog_path: Path | None = None
+    #: Every bend zone (``bends:``; the single ``bend:`` is the one-zone case). ``bend`` is the first
+    #: zone. Zones share the build of the bend region (region, leaves, plane_strain).
+    bends: tuple[BendSpec, ...] = ()
+    #: The zone the strain and life objectives read (``strain_bend:``); None = the worst zone.
+    strain_bend: str | None = None
+
+    def __post_init__(self) -> None:
+        if not self.bends:
+            object.__setattr__(self, "bends", (self.bend,))
+
+
+def required_cycles(study: Study, zone: BendSpec) -> float | None:
+    """Cycles a zone must survive. One zone: ``limits.min_cycles`` (which defaults to ``bend.cycles``
+    of a dynamic bend), as before. Several zones: a dynamic zone needs ``limits.min_cycles`` when
+    given, else its own ``cycles``; an install zone has no life limit."""
+    if len(study.bends) <= 1:
+        return study.limits.min_cycles
+    if zone.use != "dynamic":
+        return None
+    return study.limits.min_cycles if study.limits.min_cycles is not None else zone.cycles

@@ -18,6 +18,9 @@
                      (:mod:`.leaves`), -1 otherwise.
 
 The same functions serve the general and the fast evaluation, so both give identical columns.
+With several bend zones (``bends:``) the problem evaluates the columns once per zone (the zone is
+``problem.zone``) and keeps the worst zone's value, so a column holds only when every zone holds;
+``cover`` and the dynamic ``glass`` rule apply in the dynamic zones.
 """
 from __future__ import annotations
 
@@ -49,8 +52,12 @@ def elongation_fraction(study: Any) -> float:
     return 0.5 if v is None else float(v)
 
 
-def allow_uncovered(study: Any) -> bool:
-    return bool(getattr(study.bend, "allow_uncovered", False))
+def allow_uncovered(study: Any, zone: Any = None) -> bool:
+    return bool(getattr(zone if zone is not None else study.bend, "allow_uncovered", False))
+
+
+def _needs_cover(study: Any, zone: Any) -> bool:
+    return zone.use == "dynamic" and not allow_uncovered(study, zone)
 
 
 def names(space: Any) -> list[str]:
@@ -59,7 +66,7 @@ def names(space: Any) -> list[str]:
     out = ["material_strain"]
     if _cover_rmin(space).max(initial=0.0) > 0:
         out.append("cover_radius")
-    if study.bend.use == "dynamic" and not allow_uncovered(study):
+    if any(_needs_cover(study, z) for z in getattr(study, "bends", (study.bend,))):
         out.append("cover")
     if bool(a["mat_glass"].any()) and len(space.materials):
         out.append("glass")
@@ -130,7 +137,8 @@ def material_constraints(problem: Any, slots: dict[str, np.ndarray], total_m: np
     out: dict[str, np.ndarray] = {}
     if not want:
         return out
-    r = study.bend.inner_radius_mm * MM
+    zone = getattr(problem, "zone", None) or study.bend     # the bend zone being evaluated
+    r = zone.inner_radius_mm * MM
     ct, cb = slots["cover_top"], slots["cover_bot"]
     state = leaf_state(sp, slots) if sp.unbonded else None
     if "material_strain" in want:
@@ -145,13 +153,13 @@ def material_constraints(problem: Any, slots: dict[str, np.ndarray], total_m: np
         if state is not None:
             bnd, up, _ = state
             bare = bare | ((bnd & up).any(axis=1) & b["cov_bare"][ct]) | ((bnd & ~up).any(axis=1) & b["cov_bare"][cb])
-        out["cover"] = np.where(bare, 1.0, -1.0)
+        out["cover"] = np.where(bare, 1.0, -1.0) if _needs_cover(study, zone) else np.full(len(ct), -1.0)
     if "glass" in want:
         n_adh = len(sp.adh_opts)
         has = b["cov_glass"][ct] | b["cov_glass"][cb]
         for g in range(sp.n_cu - 1):
             has = has | b["gap_glass"][(slots["film"][:, g] * n_adh + slots["adh"][:, g]) * 3 + slots["place"][:, g]]
-        if study.bend.use == "dynamic":
+        if zone.use == "dynamic":
             out["glass"] = np.where(has, 1.0, -1.0)
         else:
             out["glass"] = np.where(has, GLASS_INSTALL_RATIO * total_m / r - 1.0, -1.0)

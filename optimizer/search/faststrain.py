@@ -181,8 +181,9 @@ def _strain_rows(problem, slots: dict[str, np.ndarray], transposed: bool = False
     M += take(f["ct_M"], ct)
     y += take(f["ct_T"], ct)
     total = y
-    r = sp.study.bend.inner_radius_mm * MM
-    bottom_inside = sp.study.bend.inside == "bottom"
+    zone = getattr(problem, "zone", None) or sp.study.bend     # the bend zone being evaluated
+    r = zone.inner_radius_mm * MM
+    bottom_inside = zone.inside == "bottom"
     if unbonded:
         # top down: copper i shares copper i-1's leaf unless the gap between them is a boundary
         leaf_S, leaf_M = [S], [M]

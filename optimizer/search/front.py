@@ -123,7 +123,7 @@ def build_front(problem: Problem, result: SearchResult, catalog: Any, seed: int,
     from strainline.models.lines import LineGeometry
     from strainline.models.lines.evaluate import method_findings, methods_used, range_findings
     from strainline.optimizer import __version__
-    from strainline.optimizer.search.bend_report import bend_report
+    from strainline.optimizer.search.zones import zone_findings, zone_objects
 
     sp = problem.space
     study = sp.study
@@ -140,10 +140,8 @@ def build_front(problem: Problem, result: SearchResult, catalog: Any, seed: int,
         x = X[j]
         cid = f"C{j + 1:03d}"
         st = candidate_stackup(sp, x, name=f"{study.name} {cid}")
-        rep = bend_report(st, study.bend.inner_radius_mm, study.bend.inside, study.bend.motion,
-                          study.bend.plane_strain, None, study.bend.use,
-                          study.limits.min_cycles if study.bend.use == "dynamic" else None,
-                          elongation_fraction(study), allow_uncovered(study), catalog)
+        bends, reports, pick = zone_objects(study, st, ev, j, catalog, elongation_fraction(study), allow_uncovered)
+        rep = reports[pick]     # the zone shown as ``bend`` (named by strain_bend, else the worst)
         slots = sp.slots(x.reshape(1, -1))
         sig = int(slots["signal"][0])
         row = int(ev.line_row[j])
@@ -191,7 +189,7 @@ def build_front(problem: Problem, result: SearchResult, catalog: Any, seed: int,
         }
         from strainline.optimizer.search.linetable import closed_form_finding, line_model_record
         line.update(line_model_record(tb, row))
-        findings = list(rep["findings"])
+        findings = zone_findings(reports, [z.name for z in study.bends], pick)
         if yres is not None:
             from strainline.optimizer.search.yieldcalc import yield_finding
             line["impedance_yield"] = {
@@ -252,36 +250,13 @@ def build_front(problem: Problem, result: SearchResult, catalog: Any, seed: int,
         layers_out = []
         for lay in rep["layers"]:
             layers_out.append(dict(lay))
-        cycles_min = None if ev.cycles is None else _num(ev.cycles[j])
-        bend = {
-            "inner_radius_mm": study.bend.inner_radius_mm,
-            "inside": study.bend.inside,
-            "use": study.bend.use,
-            "motion": study.bend.motion,
-            "neutral_axis_um": rep["neutral_axis_um"],
-            "region": study.bend.region,
-            "cycles_to_failure": cycles_min,
-            "required_cycles": study.limits.min_cycles,
-            "radius_to_thickness": _num(rep["radius_to_thickness"]),
-            "total_thickness_um": _num(rep["total_thickness_um"]),
-            "peak_copper_strain_pct": _num(100 * ev.peak_strain[j]),
-            "signal_copper_strain_pct": _num(100 * ev.signal_strain[j]),
-            "peak_copper_layer": rep.get("peak_copper_layer"),
-            "plane_strain": study.bend.plane_strain,
-            "strain_convention": rep.get("strain_convention"),
-            "min_radius_mm": _num(rep.get("min_radius_mm")),
-            "leaves": rep["leaves"],
-            "material_limits": rep["material_limits"],
-        }
-        if "plastic" in rep:
-            p = rep["plastic"]
-            bend["plastic"] = {k: p[k] for k in ("neutral_axis_um", "peak_copper_strain_pct", "peak_copper_layer",
-                                                 "peak_shift_pct", "axis_shift_pct") if k in p}
+        bend = dict(bends[pick])
         candidates.append({
             "id": cid,
             "objectives": objectives,
             "line": line,
             "bend": bend,
+            "bends": bends,
             "layers": layers_out,
             "choices": sp.describe(x),
             "findings": findings,

@@ -14,6 +14,11 @@ Pipeline per batch (a row is a candidate, no per-candidate Python loop):
    candidate gathers its row by index;
 4. objectives and normalized inequality constraints ``g <= 0`` (pymoo convention).
 
+Several bend zones (``study.bends``): step 2 and the mechanical constraints run once per zone (a
+loop over the few zones, vectorized over the candidates); each strain, life and material column is
+the worst zone's, so it holds only when every zone holds. The strain and life objectives read the
+zone ``strain_bend`` names, else the worst zone (:func:`.zones.zone_pick`).
+
 Batches are evaluated in row blocks of :data:`BLOCK` so the temporaries stay in cache; the line
 constraint columns and the quantized loss are precomputed per line-table row.
 
@@ -46,6 +51,8 @@ from strainline.optimizer.search import constraints as material
 from strainline.optimizer.search.faststrain import copper_strains as _copper_strains, fast_tables
 from strainline.optimizer.search.space import Space
 from strainline.optimizer.inputs.study import GAP_KINDS, OBJECTIVE_KEYS, OBJECTIVE_RESOLUTION
+from strainline.optimizer.inputs.study_spec import required_cycles
+from strainline.optimizer.search.zones import zone_pick
 from strainline.optimizer.search.linetable import OUTER_KINDS, LineTable, build_line_table, composite_df  # noqa: F401
 
 #: Rows per block of :meth:`Problem.evaluate` and :meth:`Problem.copper_strains`: small enough for
@@ -76,6 +83,11 @@ class Evaluation:
     total_thickness_m: np.ndarray
     line_row: np.ndarray          # (n,) LineTable row
     cycles: np.ndarray | None = None
+    #: Per bend zone (n, Z), in the order of ``study.bends``: peak and signal copper strain
+    #: (fractions) and the least copper cycles to failure (only when cycles were asked for).
+    zone_peak: np.ndarray | None = None
+    zone_signal: np.ndarray | None = None
+    zone_cycles: np.ndarray | None = None
 
     @property
     def feasible(self) -> np.ndarray:
@@ -90,7 +102,9 @@ class Problem:
     table: LineTable
     objectives: tuple[str, ...]
     constraint_names: list[str] = field(default_factory=list)
-    allowed_range: np.ndarray | None = None   # per copper option, strain range allowed for the life limit
+    #: Per bend zone: per copper option, the strain range allowed for the zone's life limit (None:
+    #: the zone has no life limit); None when no zone has one.
+    allowed_range: list | None = None
     fast: dict[str, np.ndarray] | None = None  # per-option block sums and per-row line figures (:func:`_fast_tables`)
     #: Kept for callers of the earlier interface: an unbonded region always takes the layer path,
     #: because the material limits need every layer's strain about its own leaf's axis
@@ -98,6 +112,8 @@ class Problem:
     fast_unbonded: bool = False
     #: The catalog the table was built with (fabrication tolerances for the impedance yield).
     catalog: Any = None
+    #: The bend zone being evaluated (set during :meth:`evaluate`; None = ``study.bend``).
+    zone: Any = None
 
     @property
     def n_var(self) -> int:
@@ -113,7 +129,7 @@ class Problem:
 
     def strains(self, thickness_m: np.ndarray, modulus_pa: np.ndarray, leaf: np.ndarray | None):
         """Bend strains of a batch (:func:`strainline.models.bending.bend_strains`)."""
-        b = self.space.study.bend
+        b = getattr(self, "zone", None) or self.space.study.bend     # the bend zone being evaluated
         return bend_strains(thickness_m, modulus_pa, b.inner_radius_mm * MM,
                             inside_bottom=(b.inside == "bottom"), leaf=leaf)
 
@@ -159,6 +175,12 @@ class Problem:
                 out.total_thickness_m[sl], out.line_row[sl] = e.total_thickness_m, e.line_row
                 if out.cycles is not None:
                     out.cycles[sl] = e.cycles
+                for key in ("zone_peak", "zone_signal", "zone_cycles"):
+                    v = getattr(e, key)
+                    if v is not None:
+                        if getattr(out, key) is None:
+                            setattr(out, key, np.empty((n, v.shape[1])))
+                        getattr(out, key)[sl] = v
             return out
         if prune:
             slots = self.space.slots(x)
@@ -225,36 +247,55 @@ class Problem:
                   slots: dict[str, np.ndarray] | None = None) -> Evaluation:
         sp, study = self.space, self.space.study
         n = x.shape[0]
-        if self.fast is not None and not sp.unbonded:
+        fast = self.fast is not None and not sp.unbonded
+        if fast:
             slots = sp.slots(x) if slots is None else slots
-            total, cu_peak, ratio = self.copper_strains(slots, dielectric=True)
         else:
             t, e, leaf, slots = sp.mechanics(x, slots)
-            bs = self.strains(t, e, leaf)
             cols = [sp.cu_col(i) for i in range(sp.n_cu)]
-            cu_peak = np.maximum(np.abs(bs.strain_top[:, cols]), np.abs(bs.strain_bottom[:, cols]))  # (n, N)
-            total = t.sum(axis=1)
-            ratio = material.strain_ratio(sp, slots, bs.strain_top, bs.strain_bottom)
-        mat_g = material.material_constraints(self, slots, total, ratio)
-        peak = cu_peak.max(axis=1)
         signal, cu_opt = slots["signal"], slots["cu"]
-        if len(sp.sig_opts) == 1:
-            sig = cu_peak[:, sp.sig_opts[0]].copy()
-        elif len(sp.sig_opts) == 2:
-            s0, s1 = sp.sig_opts
-            sig = np.where(signal == s0, cu_peak[:, s0], cu_peak[:, s1])
-        else:
-            sig = np.choose(signal, [cu_peak[:, i] for i in range(sp.n_cu)])
+        need_cycles = want_cycles or "life" in self.objectives
+        zones = study.bends
+        zp, zs, zc = np.empty((n, len(zones))), np.empty((n, len(zones))), np.full((n, len(zones)), np.inf)
+        mat_g: dict[str, np.ndarray] = {}
+        fatigue = None
+        # one pass per bend zone (a handful), vectorized over the candidates
+        for z, zone in enumerate(zones):
+            self.zone = zone
+            try:
+                if fast:
+                    total, cu_peak, ratio = self.copper_strains(slots, dielectric=True)
+                else:
+                    bs = self.strains(t, e, leaf)
+                    cu_peak = np.maximum(np.abs(bs.strain_top[:, cols]), np.abs(bs.strain_bottom[:, cols]))  # (n, N)
+                    total = t.sum(axis=1)
+                    ratio = material.strain_ratio(sp, slots, bs.strain_top, bs.strain_bottom)
+                for c, v in material.material_constraints(self, slots, total, ratio).items():
+                    mat_g[c] = v if c not in mat_g else np.maximum(mat_g[c], v)
+            finally:
+                self.zone = None
+            zp[:, z] = cu_peak.max(axis=1)
+            if len(sp.sig_opts) == 1:
+                zs[:, z] = cu_peak[:, sp.sig_opts[0]]
+            elif len(sp.sig_opts) == 2:
+                s0, s1 = sp.sig_opts
+                zs[:, z] = np.where(signal == s0, cu_peak[:, s0], cu_peak[:, s1])
+            else:
+                zs[:, z] = np.choose(signal, [cu_peak[:, i] for i in range(sp.n_cu)])
+            if need_cycles:
+                a = sp.arr
+                rng = strain_range(cu_peak, zone.motion)
+                zc[:, z] = engelmaier_cycles(rng, a["cu_Df"][cu_opt], a["cu_Su"][cu_opt], a["cu_E"][cu_opt]).min(axis=1)
+            allowed = self.allowed_range[z] if self.allowed_range is not None else None
+            if allowed is not None and "fatigue_life" in self.constraint_names:
+                # largest copper strain range over its allowed range, column by column
+                for i in range(sp.n_cu):
+                    r_i = strain_range(cu_peak[:, i], zone.motion)
+                    r_i /= allowed.take(cu_opt[:, i], mode="clip")
+                    fatigue = r_i if fatigue is None else np.maximum(fatigue, r_i, out=fatigue)
+        peak, sig, cycles = zone_pick(study, zp, zs, zc if need_cycles else None)
         row = self.table.index(slots)
         tb = self.table
-        need_cycles = want_cycles or "life" in self.objectives
-        cycles = None
-        if need_cycles:
-            a = sp.arr
-            cu = cu_opt
-            rng = strain_range(cu_peak, study.bend.motion)
-            cyc = engelmaier_cycles(rng, a["cu_Df"][cu], a["cu_Su"][cu], a["cu_E"][cu])
-            cycles = cyc.min(axis=1)
         F = np.empty((n, self.n_obj), order="F")   # columns contiguous
         for k, o in enumerate(self.objectives):
             if o == "peak_strain":
@@ -279,20 +320,14 @@ class Problem:
                 G[:, k] = mat_g[c]
             elif c == "total_thickness":
                 G[:, k] = total / (lim.total_thickness_um * UM) - 1.0
-            elif c == "peak_strain":
-                G[:, k] = peak * 100.0 / lim.peak_strain_pct - 1.0
+            elif c == "peak_strain":       # the limit holds in every zone
+                G[:, k] = zp.max(axis=1) * 100.0 / lim.peak_strain_pct - 1.0
             elif c == "signal_strain":
-                G[:, k] = sig * 100.0 / lim.signal_strain_pct - 1.0
+                G[:, k] = zs.max(axis=1) * 100.0 / lim.signal_strain_pct - 1.0
             elif c == "loss":
                 G[:, k] = tb.loss_db_per_m[row] / lim.loss_db_per_m - 1.0
             elif c == "fatigue_life":
-                # largest copper strain range over its allowed range, column by column
-                worst = None
-                for i in range(sp.n_cu):
-                    r_i = strain_range(cu_peak[:, i], study.bend.motion)
-                    r_i /= self.allowed_range.take(cu_opt[:, i], mode="clip")
-                    worst = r_i if worst is None else np.maximum(worst, r_i, out=worst)
-                G[:, k] = worst - 1.0
+                G[:, k] = fatigue - 1.0
         # feasible rows (the only ones a front keeps) are rounded, so equal designs merge
         feas = np.flatnonzero(np.all(G <= 0, axis=1)) if self.n_con else np.arange(n)
         if self.fast is not None:
@@ -304,7 +339,7 @@ class Problem:
                     F[:, k] = self.fast["loss_q"].take(row, mode="clip")
         else:
             F[feas] = quantize(F[feas], self.resolution)
-        return Evaluation(F, G, peak, sig, total, row, cycles)
+        return Evaluation(F, G, peak, sig, total, row, cycles, zp, zs, zc if need_cycles else None)
 
     def copper_strains(self, slots: dict[str, np.ndarray], axis: bool = False, dielectric: bool = False):
         """Total thickness and peak strain of every copper layer from group sums
@@ -334,9 +369,11 @@ def build_problem(space: Space, catalog) -> Problem:
                        ("signal_strain_pct", "signal_strain"), ("loss_db_per_m", "loss")):
         if getattr(lim, key) is not None:
             names.append(cname)
-    if lim.min_cycles is not None:
+    need = [required_cycles(study, z) for z in study.bends]
+    if any(c is not None for c in need):
         a = space.arr
-        allowed = engelmaier_strain_range(lim.min_cycles, a["cu_Df"], a["cu_Su"], a["cu_E"])
+        allowed = [None if c is None else engelmaier_strain_range(c, a["cu_Df"], a["cu_Su"], a["cu_E"])
+                   for c in need]
         names.append("fatigue_life")
     if lim.min_yield_pct is not None:
         names.append("yield")
