@@ -185,3 +185,24 @@ def test_cache_makes_a_rerun_free_and_gives_the_same_numbers(tmp_path):
     with pytest.MonkeyPatch.context() as mp:
         mp.setenv(CACHE_ENV, str(tmp_path / "x"))
         assert cache_dir() == tmp_path / "x"
+
+
+def test_table_solves_on_processes_and_dask_give_the_same_numbers(tmp_path):
+    # The same cross-sections solved in this process, on local worker processes and on a local Dask
+    # cluster: the solver is deterministic, so the records must be identical (no cache involved).
+    from strainline.optimizer.search.fieldsolve import Section, SolveStats, solve_sections
+
+    secs = [Section("stripline", w * UM, 12 * UM, math.nan, ((50 * UM, 3.0, 0.002), (12.5 * UM, 3.6, 0.02)),
+                    ((12.5 * UM, 3.6, 0.02), (50 * UM, 3.0, 0.002)), (3.6, 0.02)) for w in (50.0, 60.0, 70.0, 80.0)]
+    serial = solve_sections(secs, workers=1)
+    st = SolveStats()
+    procs = solve_sections(secs, workers=2, stats=st)
+    assert st.backend == "processes"
+    key = lambda rs: [(r["z"], r["eps"], r["tan"]) for r in rs]  # noqa: E731
+    assert key(procs) == key(serial)
+    distributed = pytest.importorskip("dask.distributed")
+    with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True, host="127.0.0.1",
+                                  dashboard_address=None) as cluster:
+        st = SolveStats()
+        on_dask = solve_sections(secs, dask_address=cluster.scheduler_address, stats=st)
+    assert st.backend == "dask" and key(on_dask) == key(serial)
