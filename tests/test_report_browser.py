@@ -444,3 +444,39 @@ def test_field_check_mismatch_is_highlighted(browser_ctx, tmp_path):
     finally:
         page.close()
     assert log["errors"] == []
+
+
+def test_bend_zones_switch_the_strain_profile(browser_ctx, tmp_path):
+    """A candidate with two bend zones: a button per zone redraws the strain profile with that zone's own
+    profile, and the zone table lists both; the sheet carries a row group per zone."""
+    front = json.loads(FIXTURE.read_text(encoding="utf-8"))
+    for c in front["candidates"]:
+        y_na = c["bend"]["neutral_axis_um"]
+        tops = [sum(lay["thickness_um"] for lay in c["layers"][j:]) for j in range(len(c["layers"]))]
+        r_um = 1000.0          # fold at 1 mm: exact strain (y - y_na) / (R + y_na), DESIGN.md section 3
+        profile = [{"name": lay["name"], "strain_top_pct": 100 * (t - y_na) / (r_um + y_na),
+                    "strain_bottom_pct": 100 * (t - lay["thickness_um"] - y_na) / (r_um + y_na)}
+                   for lay, t in zip(c["layers"], tops)]
+        hinge = dict(c["bend"], name="hinge", profile=[{k: lay[k] for k in ("name", "strain_top_pct",
+                                                                          "strain_bottom_pct")} for lay in c["layers"]])
+        c["bend"] = dict(hinge)
+        c["bends"] = [hinge, dict(c["bend"], name="fold", inner_radius_mm=1.0, use="install", profile=profile,
+                                  peak_copper_strain_pct=max(abs(p["strain_top_pct"]) for p in profile))]
+    (tmp_path / "front.json").write_text(json.dumps(front), encoding="utf-8")
+    assert main(["report", str(tmp_path), "--quiet"]) == 0
+    page, log = _open(browser_ctx, (tmp_path / "report.html").as_uri())
+    try:
+        k = page.evaluate("window.strainline.state.selected")
+        cand = front["candidates"][k]
+        assert page.locator("#zone-buttons button").all_inner_texts() == ["hinge", "fold"]
+        assert page.locator("#zone-table tbody tr").count() == 2
+        page.click("#zone-buttons button:has-text('fold')")
+        xs = page.evaluate("document.getElementById('strain').data.map(t => t.x)")
+        want = [[p["strain_bottom_pct"], p["strain_top_pct"]] for p in cand["bends"][1]["profile"]]
+        assert xs == want
+        assert "fold" in page.evaluate("document.getElementById('strain').layout.title.text")
+    finally:
+        page.close()
+    assert log["errors"] == []
+    sheet = pd.read_csv(tmp_path / "handoff" / f"{cand['id']}.csv", dtype=str, keep_default_na=False)
+    assert {"bends[0].inner_radius_mm", "bends[1].inner_radius_mm"} <= set(sheet["key"])

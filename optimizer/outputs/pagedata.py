@@ -176,6 +176,8 @@ def page_data(front: Mapping[str, Any], catalog: Any | None) -> dict[str, Any]:
             "refs": reference_indices(c),
             "findings": findings_of(c),
             "field_flag": field_flag(c, front, catalog),
+            "bends": [b for b in c.get("bends") or [] if isinstance(b, Mapping)],
+            "lines": [ln for ln in c.get("lines") or [] if isinstance(ln, Mapping)],
         })
     objectives = [k for k in cands[0]["objectives"] if all(is_num(c["objectives"].get(k)) for c in cands)] if cands else []
     search = front.get("search") if isinstance(front.get("search"), Mapping) else {}

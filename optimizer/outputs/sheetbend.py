@@ -73,6 +73,21 @@ def bend_rows(sheet: Sheet, cand: Mapping[str, Any], front: Mapping[str, Any]) -
 
 
 
+def zone_rows(sheet: Sheet, cand: Mapping[str, Any]) -> None:
+    """One group of bend rows per bend zone when the candidate has several (``bends`` in front.json)."""
+    bends = [b for b in cand.get("bends") or [] if isinstance(b, Mapping)]
+    if len(bends) < 2:
+        return
+    for z, b in enumerate(bends):
+        name = str(b.get("name") or f"zone {z + 1}")
+        for k, lab, unit in (("inner_radius_mm", "inner bend radius", "mm"), ("use", "use", ""),
+                             ("required_cycles", "flex cycles required", "cycles"),
+                             ("peak_copper_strain_pct", "peak copper strain (estimate)", "%"),
+                             ("cycles_to_failure", "copper cycles to failure (Engelmaier estimate)", "cycles")):
+            if b.get(k) is not None:
+                sheet.add("bend", name, f"{name}: {lab}", b[k], unit, f"bends[{z}].{k}")
+
+
 def drawing_rows(sheet: Sheet, cand: Mapping[str, Any], front: Mapping[str, Any]) -> None:
     """Fields the drawing must state: filled from front.json or the study when they give them, else left
     for the designer (``to fill in``) with what the figures assume."""
@@ -135,4 +150,4 @@ def drawing_rows(sheet: Sheet, cand: Mapping[str, Any], front: Mapping[str, Any]
                   "(exact for a square grid); state pitch, line width and angle")
 
 
-__all__ = ["bend_rows", "drawing_rows", "TO_FILL"]
+__all__ = ["bend_rows", "zone_rows", "drawing_rows", "TO_FILL"]

@@ -15,8 +15,8 @@ from collections.abc import Mapping
 from typing import Any
 
 from strainline.optimizer.outputs.formatting import cautions, figure, findings_of, fmt, study_name, study_value
-from strainline.optimizer.outputs.sheetbend import bend_rows, drawing_rows
-from strainline.optimizer.outputs.sheetline import impedance_rows
+from strainline.optimizer.outputs.sheetbend import bend_rows, drawing_rows, zone_rows
+from strainline.optimizer.outputs.sheetline import impedance_rows, other_lines
 from strainline.optimizer.outputs.sheetlookup import (
     bonded_build,
     dk_frequency_ghz,
@@ -139,7 +139,9 @@ def build_sheet(cand: Mapping[str, Any], front: Mapping[str, Any], catalog: Any 
     tols, foils = _stackup(sheet, cand, catalog, sig, refs)
     _totals(sheet, cand, catalog, tols)
     impedance_rows(sheet, cand, front, catalog, sig, refs)
+    other_lines(sheet, cand)
     bend_rows(sheet, cand, front)
+    zone_rows(sheet, cand)
     drawing_rows(sheet, cand, front)
 
     for f in findings_of(cand):

@@ -148,4 +148,19 @@ def _etch_and_loss(sheet: Sheet, line: Mapping[str, Any], layers: list[Mapping[s
               "IPC-TM-650 2.5.5.7, characteristic impedance of lines on printed boards by TDR")
 
 
-__all__ = ["impedance_rows", "COUPON_METHOD"]
+def other_lines(sheet: Sheet, cand: Mapping[str, Any]) -> None:
+    """Rows for every controlled line when the candidate carries several (``lines`` in front.json)."""
+    lines = [ln for ln in cand.get("lines") or [] if isinstance(ln, Mapping)]
+    if len(lines) < 2:
+        return
+    for k, ln in enumerate(lines):
+        name = str(ln.get("name") or f"line {k + 1}")
+        for key, lab, unit in (("type", "line type", ""), ("layer_name", "signal layer", ""),
+                               ("width_um", "trace width as designed", "um"), ("gap_um", "gap as designed", "um"),
+                               ("target_ohm", "target impedance", "ohm"), ("z0_ohm", "impedance (closed form)", "ohm"),
+                               ("z_diff_ohm", "differential impedance (closed form)", "ohm")):
+            if ln.get(key) is not None:
+                sheet.add("lines", name, f"{name}: {lab}", ln[key], unit, f"lines[{k}].{key}")
+
+
+__all__ = ["impedance_rows", "other_lines", "COUPON_METHOD"]

@@ -112,7 +112,7 @@ def sheet_html(sheet: Sheet) -> str:
         total_tol=_cell(worst if worst is not None else cap, 3),
         rss=_cell(rss, 3) if rss is not None else None, cap=_cell(cap, 3) if cap is not None else None,
         cap_note=cap.note if cap else "", method=TOLERANCE_METHOD,
-        impedance=_rows(imp), bend=_rows(sheet.section("bend") + sheet.section("objectives")),
+        impedance=_rows(imp + sheet.section("lines")), bend=_rows(sheet.section("bend") + sheet.section("objectives")),
         drawing=_rows(sheet.section("drawing")),
         wide=[{"quantity": r.quantity, "key": r.key, "value": csv_value(r.value), "text": r.value, "note": r.note}
               for r in wide],

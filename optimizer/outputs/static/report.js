@@ -257,6 +257,46 @@ function neutralAxes(c) {
   return (Array.isArray(na) ? na : [na]).filter(function (y) { return typeof y === 'number'; });
 }
 
+function zoneView(c, z) {
+  // the candidate as bent in zone z (its own strain profile and neutral axes); null z: the zone front.json shows
+  var b = z === null || z === undefined ? null : c.bends[z];
+  if (!b || !Array.isArray(b.profile) || b.profile.length !== c.layers.length) return c;
+  return {id: c.id + ' in ' + b.name, signal: c.signal, bend: b, strain_limit_pct: c.strain_limit_pct,
+    layers: c.layers.map(function (l, i) {
+      var p = b.profile[i];
+      return Object.assign({}, l, {strain_top_pct: p.strain_top_pct, strain_bottom_pct: p.strain_bottom_pct});
+    })};
+}
+
+function drawZones(c) {
+  var many = c.bends.length > 1;
+  fill('zone-buttons', many ? ['bend zone: '].concat(c.bends.map(function (b, z) {
+    var bt = el('button', {'class': 'zone' + (b.name === c.bend.name ? ' on' : '')}, b.name);
+    bt.addEventListener('click', function () {
+      Array.prototype.forEach.call(document.querySelectorAll('#zone-buttons button'), function (x) { x.classList.remove('on'); });
+      bt.classList.add('on');
+      drawStrain(zoneView(c, z));
+    });
+    return bt;
+  })) : []);
+  fill('zone-table', many ? [el('thead', null, el('tr', null, ['bend zone', 'inner radius (mm)', 'use', 'cycles required',
+    'peak copper strain (%)', 'cycles to failure', 'R / thickness'].map(function (t, k) { return el('th', {'class': k ? '' : 't'}, t); }))),
+    el('tbody', null, c.bends.map(function (b) {
+      return el('tr', null, [el('td', {'class': 't'}, b.name), el('td', null, fmt(b.inner_radius_mm)), el('td', null, fmt(b.use)),
+        el('td', null, fmt(b.required_cycles)), el('td', null, fmt(b.peak_copper_strain_pct)),
+        el('td', null, fmt(b.cycles_to_failure, 3)), el('td', null, fmt(b.radius_to_thickness, 3))]);
+    }))] : []);
+  var lines = c.lines || [];
+  fill('line-table', lines.length > 1 ? [el('thead', null, el('tr', null, ['line', 'type', 'layer', 'width (um)', 'gap (um)',
+    'impedance (ohm)', 'target (ohm)'].map(function (t, k) { return el('th', {'class': k < 3 ? 't' : ''}, t); }))),
+    el('tbody', null, lines.map(function (ln, k) {
+      var z = ln.z_diff_ohm !== null && ln.z_diff_ohm !== undefined ? ln.z_diff_ohm : ln.z0_ohm;
+      return el('tr', null, [el('td', {'class': 't'}, ln.name || 'line ' + (k + 1)), el('td', {'class': 't'}, fmt(ln.type)),
+        el('td', {'class': 't'}, fmt(ln.layer_name || ln.layer)), el('td', null, fmt(ln.width_um)), el('td', null, fmt(ln.gap_um)),
+        el('td', null, fmt(z)), el('td', null, fmt(ln.target_ohm))]);
+    }))] : []);
+}
+
 function drawStrain(c) {
   var L = c.layers, total = L.length ? L[0].top_um : 0;
   var traces = [], shapes = [], anns = [];
@@ -468,7 +508,7 @@ function select(i) {
   if (!(i >= 0 && i < C.length)) return;
   state.selected = i;
   var c = C[i];
-  drawSection(c); drawStrain(c); drawLayerTable(c); drawFront(); drawTable(); syncCompareBoxes();
+  drawSection(c); drawStrain(c); drawZones(c); drawLayerTable(c); drawFront(); drawTable(); syncCompareBoxes();
   window.strainline.renders += 1;
 }
 
