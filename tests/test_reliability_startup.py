@@ -64,3 +64,19 @@ def test_version_is_looked_up_only_when_asked(capsys):
     from importlib.metadata import version
 
     assert capsys.readouterr().out.strip() == f"strainline {version('strainline')}"
+
+
+def test_constants_are_the_codata_values_without_importing_scipy_constants():
+    # models/units.py carries literals (no scipy.constants at start-up); they must equal the CODATA
+    # recommended values scipy.constants carries (NIST), and satisfy c^2 mu0 eps0 = 1 (Maxwell).
+    import math
+
+    from scipy import constants as codata
+
+    from strainline.models import units
+
+    assert units.C0 == 299792458.0 == codata.c                      # exact by the SI definition of the metre
+    assert units.MU0 == codata.mu_0 and units.EPS0 == codata.epsilon_0
+    assert units.C0 ** 2 * units.MU0 * units.EPS0 == pytest.approx(1.0, abs=1e-9)
+    assert units.ETA0 == pytest.approx(math.sqrt(codata.mu_0 / codata.epsilon_0), rel=1e-15)
+    assert units.ETA0 == pytest.approx(376.730313, rel=1e-8)        # CODATA 2022 characteristic impedance of vacuum
