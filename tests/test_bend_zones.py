@@ -194,3 +194,14 @@ def test_strain_bend_names_the_zone_the_objectives_read(tmp_path):
         assert c["objectives"]["peak_strain_pct"] == pytest.approx(hinge["peak_copper_strain_pct"], rel=1e-12)
         assert c["bend"]["name"] == "hinge"
         assert c["bends"][0]["peak_copper_strain_pct"] > hinge["peak_copper_strain_pct"]   # R 1 mm vs 5 mm
+
+
+def test_csv_has_every_zone_and_no_profile_columns(two_zone_front):
+    from strainline.optimizer.outputs.frontfiles import flat_rows
+
+    row = flat_rows(two_zone_front)[0]
+    for z, name in ((1, "fold"), (2, "hinge")):
+        assert row[f"bends.{z}.name"] == name
+        assert row[f"bends.{z}.peak_copper_strain_pct"] == two_zone_front["candidates"][0]["bends"][z - 1][
+            "peak_copper_strain_pct"]
+    assert not [k for k in row if ".profile." in k]

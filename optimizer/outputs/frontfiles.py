@@ -32,6 +32,13 @@ def flat_rows(front: dict[str, Any]) -> list[dict[str, Any]]:
         r: dict[str, Any] = {}
         c2 = dict(c)
         c2["findings"] = [f["code"] for f in c.get("findings", [])]
+        # a zone's strain profile is per layer (front.json has it); the rows keep each zone's figures
+        for key in ("bend", "bends"):
+            v = c2.get(key)
+            if isinstance(v, dict):
+                c2[key] = {k: x for k, x in v.items() if k != "profile"}
+            elif isinstance(v, list):
+                c2[key] = [{k: x for k, x in b.items() if k != "profile"} if isinstance(b, dict) else b for b in v]
         _flatten("", c2, r)
         rows.append(r)
     return rows
@@ -89,7 +96,12 @@ def format_table(front: dict[str, Any], limit: int = 25) -> str:
              + f" ({s['seconds']:.1f} s)"]
     cands = front["candidates"]
     if not cands:
-        lines.append(s.get("infeasible", {}).get("message", "no feasible stackup"))
+        inf = s.get("infeasible") or {}
+        lines.append(inf.get("message", "no feasible stackup"))
+        counts = inf.get("violations") or {}
+        if counts:      # how many evaluated candidates each constraint ruled out, most first
+            lines.append("candidates breaking each constraint: " + ", ".join(
+                f"{k.replace('_', ' ')} {v:,}" for k, v in sorted(counts.items(), key=lambda kv: -kv[1]) if v))
         return "\n".join(lines)
     okeys = list(cands[0]["objectives"])
     head = ["id"] + okeys + ["layer", "width_um", "gap_um", "z_ohm", "thick_um", "peak_%", "cycles"]
