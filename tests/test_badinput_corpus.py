@@ -391,6 +391,10 @@ OPTION_CASES = [
     (["line", "microstrip", "--width-um", "100", "--freq-ghz", "5", "--roughness-um", "1e300", *_MS], "--roughness-um"),
     (["line", "microstrip", "--width-um", "100", "--cover-um", "25", *_MS], "--cover-er: a cover needs its relative permittivity"),
     (["line", "microstrip", "--width-um", "100", "--cover-um", "25", "--cover-er", "0.9", *_MS], "--cover-er: 0.9 is out of range"),
+    # regression: a cover permittivity without a cover thickness was silently ignored (README: an option
+    # that does not apply is an error, never ignored)
+    (["line", "microstrip", "--width-um", "100", "--cover-er", "3", *_MS], "--cover-er: a cover permittivity needs"),
+    (["line", "coplanar", "--width-um", "100", "--gap-um", "100", "--cover-er", "3", *_MS], "give --cover-um C"),
     (["line", "microstrip", "--target-ohm", "500", *_MS], "the reachable impedance is"),
     (["line", "microstrip", "--target-ohm", "inf", *_MS], "--target-ohm: inf is out of range"),
     (["line", "microstrip", "--no-bottom-ground", "--width-um", "100", *_MS], "--no-bottom-ground applies to coplanar"),

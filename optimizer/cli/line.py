@@ -162,6 +162,9 @@ def not_applicable(args: argparse.Namespace) -> None:
     if kind not in _COVERABLE and (cover_given or args.cover_er is not None):
         opt = "--cover-um" if cover_given else "--cover-er"
         raise InputError(f"{kind} has no cover; the dielectric above a stripline is --height-top-um/--er-top", opt)
+    if kind in _COVERABLE and args.cover_er is not None and args.cover_um is None:
+        raise InputError("a cover permittivity needs the cover's thickness: give --cover-um C as well (>= 0 um)",
+                         "--cover-er")
     if kind != "coplanar" and args.no_bottom_ground:
         raise InputError(f"{kind} always has its ground plane below; --no-bottom-ground applies to coplanar",
                          "--no-bottom-ground")
