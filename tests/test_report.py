@@ -230,6 +230,10 @@ def test_infeasible_diagnosis_names_counts_limit_reached_and_what_to_relax(front
     assert diagnosis(front) is None
     page = build_report_html(_infeasible_front(front))
     assert 'id="diagnosis"' in page and 'id="front"' not in page
+    from strainline.optimizer.outputs.frontfiles import format_table
+
+    table = format_table(_infeasible_front(front)).splitlines()
+    assert table[-1] == "candidates breaking each constraint: total thickness 900, impedance 120, fatigue life 40"
 
 
 def test_search_panel_readable_keys_and_numbers(front):
