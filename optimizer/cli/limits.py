@@ -13,13 +13,14 @@ from typing import Any
 
 from strainline.optimizer.errors import StudyError
 
-#: Rows of the line table built without ``--force``.
-LINE_TABLE_MAX_ROWS = 2_000_000
+#: Rows of the line table built without ``--force`` (about 3 GB at the peak and up to ~17 min).
+LINE_TABLE_MAX_ROWS = 1_000_000
 #: Peak memory per line-table row while it is built, bytes (measured with tracemalloc on the shipped
-#: studies: 1,070-1,100 bytes a row; the table kept afterwards is ~165 bytes a row).
-LINE_TABLE_BYTES_PER_ROW = 1100
-#: Build time per row, seconds (measured on the shipped studies: 31-47 us a row on one core).
-LINE_TABLE_SECONDS_PER_ROW = 50e-6
+#: studies: 1,100-2,900 bytes a row at the peak; the table kept afterwards is 370-2,300 bytes a row).
+LINE_TABLE_BYTES_PER_ROW = 3000
+#: Build time per row, seconds, with the field-accurate table (measured on wearable-patch-feed:
+#: ~0.95 ms a row on one core; the closed-form table takes ~0.1 ms a row).
+LINE_TABLE_SECONDS_PER_ROW = 1e-3
 
 
 def _bytes(n: float) -> str:
@@ -27,6 +28,14 @@ def _bytes(n: float) -> str:
         if n >= size:
             return f"{n / size:.1f} {unit}"
     return f"{n / 1e3:.0f} kB"
+
+
+def _duration(seconds: float) -> str:
+    if seconds < 5400:
+        return f"{seconds / 60:,.0f} min"
+    if seconds < 2 * 86400:
+        return f"{seconds / 3600:,.0f} h"
+    return f"{seconds / 86400:,.0f} days"
 
 
 def check_line_table(space: Any, force: bool = False, limit: int | None = None) -> int:
@@ -43,7 +52,7 @@ def check_line_table(space: Any, force: bool = False, limit: int | None = None) 
     if rows > limit and not force:
         raise StudyError(
             f"the line table would hold {rows:,} line geometries (about {_bytes(rows * LINE_TABLE_BYTES_PER_ROW)} "
-            f"and {rows * LINE_TABLE_SECONDS_PER_ROW / 60:.0f} min to build), over the limit of {limit:,}; "
+            f"and up to {_duration(rows * LINE_TABLE_SECONDS_PER_ROW)} to build), over the limit of {limit:,}; "
             "offer fewer options next to the signal layer (copper weights, dielectric and adhesive builds, "
             "covers, pair gaps) or give --force to build it anyway", "stack")
     return rows
