@@ -429,7 +429,11 @@ SOLVE_CASES = [
     ([], "missing STUDY.yaml"), (["--method", "exhaustve"], "did you mean 'exhaustive'"),
     (["--budget", "-5"], "--budget: -5 is not a positive integer"), (["--budget", "1e3"], "--budget: 1e3"),
     (["--budget", "50"], "allowed range [100"), (["--seed", "-1"], "--seed: -1 is not an integer >= 0"),
-    (["--seed", "1.5"], "--seed: 1.5"), (["--workers", "0"], "--workers: 0 is not a positive integer"),
+    (["--seed", "1.5"], "--seed: 1.5"),
+    # regression: a seed past the study's range and an empty Dask address were accepted (the empty
+    # address silently ran locally)
+    (["--seed", "99999999999999999999"], "allowed range [0, 4294967295]"),
+    (["--dask", ""], "--dask: '' is not a scheduler address"), (["--workers", "0"], "--workers: 0 is not a positive integer"),
     (["--workers", "x"], "--workers: x"), (["--keep-unverified"], "--keep-unverified: applies only with --verify"),
     (["--impedance", "closed"], "did you mean 'closed-form'"), (["--catalog", "/nonexistent-catalog"], "catalog folder not found"),
     (["--out", "/proc/strainline-out"], "--out /proc/strainline-out"), (["--out", "/dev/null"], "is a file, not a folder"),

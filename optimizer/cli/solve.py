@@ -25,14 +25,23 @@ def _positive_int(text: str) -> int:
 
 
 def _natural_int(text: str) -> int:
-    """argparse type: an integer >= 0."""
+    """argparse type: a seed, an integer in [0, 2**32 - 1] (the study's search.seed range)."""
     try:
         v = int(text)
     except ValueError:
         raise argparse.ArgumentTypeError(f"{text} is not an integer >= 0") from None
     if v < 0:
         raise argparse.ArgumentTypeError(f"{text} is not an integer >= 0")
+    if v > 2 ** 32 - 1:
+        raise argparse.ArgumentTypeError(f"{text} is out of range; allowed range [0, {2 ** 32 - 1}]")
     return v
+
+
+def _address(text: str) -> str:
+    """argparse type: a Dask scheduler address (not empty)."""
+    if not text.strip():
+        raise argparse.ArgumentTypeError(f"{text!r} is not a scheduler address; give e.g. tcp://10.0.0.5:8786")
+    return text
 
 
 def register(subparsers) -> argparse.ArgumentParser:
@@ -54,7 +63,7 @@ def register(subparsers) -> argparse.ArgumentParser:
     p.add_argument("--verify", action="store_true", help="field-solve every front candidate")
     p.add_argument("--workers", type=_positive_int, default=None,
                    help="local worker processes for the exhaustive search (default: every core) and --verify (default 1)")
-    p.add_argument("--dask", metavar="ADDRESS", default=None,
+    p.add_argument("--dask", metavar="ADDRESS", default=None, type=_address,
                    help="Dask scheduler address: run the exhaustive search and --verify on that cluster")
     p.add_argument("--impedance", choices=("field", "closed-form"), default=None,
                    help="impedance model of the line table (default: the study's search.impedance, else field)")
