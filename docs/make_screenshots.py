@@ -5,7 +5,8 @@
 
 Builds report.html and handoff/ in a temporary folder (the given folder is not touched), opens them in
 the system Chromium (Debian package `chromium`) through Playwright and writes small PNGs:
-docs/images/report-front.png, docs/images/report-candidate.png and docs/images/handoff-sheet.png.
+docs/images/report-front.png, docs/images/report-candidate.png, docs/images/report-compare.png and
+docs/images/handoff-sheet.png.
 """
 from __future__ import annotations
 
@@ -49,6 +50,10 @@ def main(argv: list[str]) -> int:
             page.wait_for_timeout(800)
             page.screenshot(path=str(images / "report-front.png"))
             page.locator("#candidate-card").screenshot(path=str(images / "report-candidate.png"))
+            if len(cands) >= 2:           # the comparison view opens on the ends of the front
+                page.locator("#compare-card").scroll_into_view_if_needed()
+                page.wait_for_timeout(500)
+                page.locator("#compare-card").screenshot(path=str(images / "report-compare.png"))
             cid = cands[pick]["id"]
             page.set_viewport_size({"width": 1000, "height": 1300})
             page.goto((work / "handoff" / f"{cid}.html").as_uri())
@@ -58,8 +63,9 @@ def main(argv: list[str]) -> int:
     finally:
         shutil.rmtree(work, ignore_errors=True)
         shutil.rmtree(profile, ignore_errors=True)
-    for name in ("report-front.png", "report-candidate.png", "handoff-sheet.png"):
-        print(images / name, (images / name).stat().st_size // 1024, "KiB")
+    for name in ("report-front.png", "report-candidate.png", "report-compare.png", "handoff-sheet.png"):
+        if (images / name).exists():
+            print(images / name, (images / name).stat().st_size // 1024, "KiB")
     return 0
 
 

@@ -269,3 +269,22 @@ def test_choices_named_from_one():
     assert readable_choice("signal_layer", "copper 2") == ("signal layer", "L2")
     assert readable_choice("cover[top]", "none")[0] == "top cover"
 
+
+
+def test_readme_example_output_is_a_real_run(repo_root):
+    """The README's `strainline solve` example quotes a real run of the demo study: the summary line (all but the
+    seconds), the first rows of the table and the number of files written must match a run made now."""
+    from strainline.optimizer.cli.solve import solve
+    from strainline.optimizer.outputs.frontfiles import format_table
+
+    text = (repo_root / "README.md").read_text(encoding="utf-8")
+    m = re.search(r"\$ strainline solve (studies/\S+\.yaml)\n(.*?)\n\.\.\.\nwrote \S+: [^\n]*? and (\d+) more files\n",
+                  text, re.S)
+    assert m, "the README example block is missing"
+    quoted = m.group(2).splitlines()
+    front, _ = solve(repo_root / m.group(1), quiet=True)
+    now = format_table(front).splitlines()
+    strip = lambda line: re.sub(r" \([\d.]+ s\)$", "", line)     # noqa: E731 - run time differs run to run
+    assert strip(quoted[0]) == strip(now[0])
+    assert quoted[1:] == now[1:len(quoted)]
+    assert int(m.group(3)) == 2 * len(front["candidates"]) + 1   # report.html, then a sheet pair each and the index
