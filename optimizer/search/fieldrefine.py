@@ -70,8 +70,8 @@ def refine_rows(tb: Any, rows: np.ndarray, *, workers: int | None = None, dask_a
         w, ok = solve_width(tb.kind, target * np.exp(-r_rows[:, 0]), geom, lo, hi)
         ok = np.asarray(ok, bool)
         if not ok.all():
-            z_lo = tb.closed_form(rows, lo)["z"] * np.exp(r_rows[:, 0])
-            z_hi = tb.closed_form(rows, hi)["z"] * np.exp(r_rows[:, 0])
+            z_lo = tb.closed_form.z(rows, lo)["z"] * np.exp(r_rows[:, 0])
+            z_hi = tb.closed_form.z(rows, hi)["z"] * np.exp(r_rows[:, 0])
             end = np.where(np.abs(z_lo / target - 1) <= np.abs(z_hi / target - 1), lo, hi)
             w = np.where(ok, w, end)
         w = np.where(np.isfinite(w), w, tb.width_m[rows])
@@ -102,7 +102,7 @@ def _recorrect(tb: Any, pts: np.ndarray, widths: np.ndarray, r_solved: np.ndarra
     lo = tb.width_lo_m[u]
     hi = np.maximum(tb.width_hi_m[u], lo * (1 + 1e-9))
     w, ok = corrected_widths(tb.kind, tb.correction, gU, bU, tb.target_ohm, lo, hi, tb.width_m[u],
-                             lambda ww: tb.closed_form(u, ww))
+                             lambda ww: tb.closed_form.z(u, ww))
     r = tb.correction(features(tb.kind, w, gU, bU))
     tb.set_rows(rest, w[inv], r[inv], ok[inv])
 

@@ -133,6 +133,11 @@ def _farthest(Xn: np.ndarray, chosen: np.ndarray, count: int) -> list[int]:
     return picks
 
 
+def _lean(closed_form):
+    """The closed form's impedance-only path when it has one (no loss: the width solves need Z)."""
+    return getattr(closed_form, "z", closed_form)
+
+
 def _ln_ratio(a: np.ndarray, b: np.ndarray) -> np.ndarray:
     return np.log((np.asarray(a, float) + 1e-12) / (np.asarray(b, float) + 1e-12))
 
@@ -220,7 +225,7 @@ def field_values(kind: str, g, bands: dict[str, np.ndarray], target: float, wlo:
     while True:
         corr = fit_correction(feats_all, np.concatenate(X), np.concatenate(Y))
         w, ok = corrected_widths(kind, corr, gU, bU, target, lo_w, hi_w, w,
-                                 lambda ww, rows=first: closed_form(rows, ww))
+                                 lambda ww, rows=first: _lean(closed_form)(rows, ww))
         if info.rounds >= MAX_ROUNDS or (info.goal_met and info.rounds > 0):
             break
         fresh = [u for u in range(U) if not any(abs(w[u] / x - 1) < 1e-4 for x in solved_w.get(u, []))]
@@ -238,7 +243,7 @@ def field_values(kind: str, g, bands: dict[str, np.ndarray], target: float, wlo:
             picks += [int(u) for u in rng.choice(rest, size=min(len(rest), N_HOLDOUT - len(picks)), replace=False)]
         picks = sorted(set(picks))
         r_p = corr(features(kind, w[picks], gU.take(np.asarray(picks)), {k: v[picks] for k, v in bU.items()}))
-        z_pred = closed_form(first[picks], w[picks])["z"] * np.exp(r_p[:, 0])
+        z_pred = _lean(closed_form)(first[picks], w[picks])["z"] * np.exp(r_p[:, 0])
         fz, good = run(picks, w[picks])
         err = float(np.max(np.abs(fz[good] / z_pred[good] - 1))) * 100 if good.any() else math.inf
         info.holdout_history_pct.append(err)

@@ -310,8 +310,8 @@ def build_line_table(space: Space, catalog, impedance: str | None = None) -> Lin
     ok = np.asarray(ok, bool) & (whi >= wlo)
     # no root in range: take the better end of the range (the impedance constraint grades it)
     all_rows = np.arange(total)
-    e_lo = np.abs(closed_form(all_rows, wlo)["z"] / target - 1)
-    e_hi = np.abs(closed_form(all_rows, whi_s)["z"] / target - 1)
+    e_lo = np.abs(closed_form.z(all_rows, wlo)["z"] / target - 1)
+    e_hi = np.abs(closed_form.z(all_rows, whi_s)["z"] / target - 1)
     w = np.where(ok, w, np.where(e_lo <= e_hi, wlo, whi_s))
     w_cf = np.where(np.isfinite(w), w, wlo)
     info = corr = None

@@ -56,6 +56,12 @@ class ClosedForm:
     sigma: np.ndarray
     freq_hz: float
 
+    def z(self, rows: np.ndarray, width_m: np.ndarray) -> dict[str, np.ndarray]:
+        """``{"z": ...}``: only the target impedance (the lean path of the width solves)."""
+        from strainline.models.lines import target_impedance
+
+        return {"z": np.asarray(target_impedance(self.kind, self.geom.take(rows).with_(width_m=width_m)), float)}
+
     def __call__(self, rows: np.ndarray, width_m: np.ndarray) -> dict[str, Any]:
         """``z`` (target impedance), ``eps``, ``tan`` (loss tangent implied by the closed-form
         dielectric loss), ``res`` (LineResult), ``loss`` (LineLoss) of rows at widths."""
