@@ -589,3 +589,22 @@ def test_user_catalog_empty_file(run_cli, tmp_path):
     (folder / "copper.yaml").write_text("", encoding="utf-8")
     line = _one_line(*run_cli("catalog", "--catalog", folder), "copper.yaml")
     assert str(folder) in line
+
+
+# regression: a path longer than the system allows (ENAMETOOLONG) ended in an internal error, exit 1
+_LONG = "x" * 300
+
+
+@pytest.mark.parametrize("argv", [
+    ["solve", "{study}", "--out", "{tmp}/" + _LONG],
+    ["solve", "{study}", "--catalog", _LONG, "--out", "{tmp}/out"],
+    ["report", _LONG],
+    ["catalog", "--catalog", _LONG],
+    ["bend", STACKUP, "--inner-radius-mm", "2", "--catalog", _LONG],
+], ids=["solve-out", "solve-catalog", "report", "catalog", "bend-catalog"])
+def test_file_name_too_long(run_cli, tmp_path, argv):
+    study = tmp_path / "study.yaml"
+    study.write_text(_TEXT, encoding="utf-8")
+    argv = [str(a).format(study=study, tmp=tmp_path) for a in argv]
+    _one_line(*run_cli(*argv), "file name too long")
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["study.yaml"]

@@ -11,6 +11,7 @@ Start-up stays light: the parser imports only the module of the command being ru
 from __future__ import annotations
 
 import argparse
+import errno
 import importlib
 import re
 import sys
@@ -119,6 +120,15 @@ def main(argv: Sequence[str] | None = None) -> int:
         return 130
     except BrokenPipeError:
         return 0
+    except OSError as exc:
+        if exc.errno == errno.ENAMETOOLONG:   # a path the user gave: bad input, not a failure
+            name = str(exc.filename or "")
+            name = name if len(name) <= 80 else f"{name[:40]}...{name[-30:]}"
+            print(f"strainline: error: {name}: file name too long (the system allows about 255 bytes a name, "
+                  "4,096 a path)", file=sys.stderr)
+            return 2
+        print(f"strainline: internal error: {exc.__class__.__name__}: {exc}", file=sys.stderr)
+        return 1
     except Exception as exc:  # noqa: BLE001 - last line of defence: one line, exit 1
         print(f"strainline: internal error: {exc.__class__.__name__}: {exc}", file=sys.stderr)
         return 1
