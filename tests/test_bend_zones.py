@@ -205,3 +205,43 @@ def test_csv_has_every_zone_and_no_profile_columns(two_zone_front):
         assert row[f"bends.{z}.peak_copper_strain_pct"] == two_zone_front["candidates"][0]["bends"][z - 1][
             "peak_copper_strain_pct"]
     assert not [k for k in row if ".profile." in k]
+
+
+def test_shipped_two_zone_study_with_its_catalog(tmp_path):
+    """studies/reader-fold-and-hinge.yaml: its own catalog (mode: add), two zones of an unbonded
+    region; every leaf of every zone recomputed by hand (transformed section of the leaf about its
+    own axis, at the leaf's own inner radius: Gere & Timoshenko, composite beams)."""
+    from strainline.optimizer.cli.solve import solve
+
+    path = Path(__file__).resolve().parents[1] / "studies" / "reader-fold-and-hinge.yaml"
+    front, _ = solve(path, out=tmp_path / "o", method="evolutionary", budget=1500, quiet=True, force=True,
+                     impedance="closed-form")
+    front = json.loads(json.dumps(front))
+    assert front["catalog"]["origin"]["materials.yaml"] == "added"
+    cands = front["candidates"]
+    assert cands
+    # the user catalog's core (Dk 3.2 there, 3.3 built in) is what the candidates are built of
+    user_dk = {lay["dk"] for c in cands for lay in c["layers"] if lay.get("material") == "adhesiveless-polyimide-core"}
+    assert user_dk and all(dk == pytest.approx(3.2, abs=1e-12) for dk in user_dk)
+    zones = {"fold": (1.0, "top"), "hinge": (5.0, "bottom")}
+    for c in cands:
+        assert [b["name"] for b in c["bends"]] == ["fold", "hinge"]
+        by_name = {lay["name"]: lay for lay in c["layers"]}
+        for b in c["bends"]:
+            r_mm, inside = zones[b["name"]]
+            prof = {p["name"]: p for p in b["profile"]}
+            peak = 0.0
+            for leaf in b["leaves"]:
+                lays = [by_name[n] for n in leaf["layers"]]
+                # the leaf's own inner radius: the zone's radius plus what lies inside the leaf
+                assert leaf["inner_radius_mm"] >= r_mm - 1e-12
+                top, bot = _hand_strains(
+                    [dict(lay, y_bottom_um=lay["y_bottom_um"] - min(x["y_bottom_um"] for x in lays)) for lay in lays],
+                    leaf["inner_radius_mm"], inside)
+                for lay, t_, b_ in zip(lays, top, bot):
+                    assert prof[lay["name"]]["strain_top_pct"] == pytest.approx(100 * t_, rel=1e-9, abs=1e-12)
+                    assert prof[lay["name"]]["strain_bottom_pct"] == pytest.approx(100 * b_, rel=1e-9, abs=1e-12)
+                    if lay["kind"] == "copper":
+                        peak = max(peak, abs(t_), abs(b_))
+            assert b["peak_copper_strain_pct"] == pytest.approx(100 * peak, rel=1e-9)
+        assert c["bends"][1]["cycles_to_failure"] >= 5000 * (1 - 1e-9)
