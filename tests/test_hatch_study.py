@@ -11,6 +11,7 @@ from __future__ import annotations
 import json
 from pathlib import Path
 
+import numpy as np
 import pytest
 
 STUDY = """name: hinge-hatch
@@ -121,3 +122,39 @@ def test_frequency_above_the_quasi_static_limit_is_a_warning(tmp_path, run_cli):
 def test_bad_hatch_keys_exit_2(tmp_path, run_cli, kw, field):
     code, _, err = run_cli("solve", _write(tmp_path, **kw), "--out", tmp_path / "o", "--quiet")
     assert code == 2 and field in err and err.count("\n") == 1, err
+
+
+def test_the_search_pays_for_the_hatch_in_width(tmp_path, run_cli):
+    # each candidate over a hatch must reach the target with a width in range: at that width the
+    # solid-plane impedance (closed form, Hammerstad & Jensen 1980, times the row's field
+    # correction) times the hatch factor is the target
+    from strainline.models.lines import LineGeometry, evaluate_line
+
+    out = tmp_path / "out"
+    code, _, err = run_cli("solve", _write(tmp_path), "--out", out, "--quiet", "--impedance", "closed-form",
+                           "--workers", "1")
+    assert code == 0, err
+    d = json.loads((out / "front.json").read_text())
+    assert "hatch_width" in d["search"]["constraints"]
+    for c in d["candidates"]:
+        h = c["line"].get("hatch")
+        if h is None:
+            continue
+        w_h = h["width_over_hatch_um"]
+        assert w_h is not None and 75 <= w_h <= 400 and w_h > c["line"]["width_um"]
+        g = c["line"]["geometry"]
+
+        def z(width_um, g=g):
+            return float(np.asarray(evaluate_line("microstrip", LineGeometry(
+                width_m=width_um * 1e-6, height_m=g["height_um"] * 1e-6, thickness_m=g["thickness_um"] * 1e-6,
+                er=g["er"], cover_m=g["cover_um"] * 1e-6, cover_er=g["cover_er"])).z0_ohm).reshape(-1)[0])
+
+        corr = c["line"]["z0_ohm"] / z(c["line"]["width_um"])
+        assert z(w_h) * corr * h["hatch_factor"] == pytest.approx(50.0, rel=2e-3)
+    # a coarse hatch whose factor no width in range can absorb leaves only solid planes on the front
+    out2 = tmp_path / "out2"
+    code, _, err = run_cli("solve", _write(tmp_path, extra_line="  hatch_correction: 3.0\n"), "--out", out2,
+                           "--quiet", "--impedance", "closed-form", "--workers", "1")
+    assert code == 0, err
+    d2 = json.loads((out2 / "front.json").read_text())
+    assert d2["candidates"] and all("hatch" not in c["line"] for c in d2["candidates"])

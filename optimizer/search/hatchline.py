@@ -144,6 +144,43 @@ def _finding(code: str, severity: str, message: str, source: str) -> dict[str, s
     return {"code": code, "severity": severity, "message": message, "source": source}
 
 
+def candidate_geometry(study: Any, tb: Any, row: int, pitch_um: float, width_um: float, angle_deg: float,
+                       flip: bool) -> tuple[Any, Hatch, list[tuple[float, float]]]:
+    """Scalar geometry, hatch and layered dielectric (plane up to the trace) of table row ``row``
+    over a hatch; ``flip``: a stripline whose hatched plane is the one above (its mirror image)."""
+    from strainline.models.lines import LineGeometry
+
+    kind = study.line.type
+    strip = kind in ("stripline", "coupled-stripline")
+    t_cu = float(np.broadcast_to(tb.thickness_m, (tb.n_rows,))[row])
+    hatch = Hatch(pitch_um * UM, width_um * UM, angle_deg, t_cu)
+    sec = tb.section(row)
+    below = [(a, e) for a, e, _ in sec["below"]]
+    h_top, er_top = float(tb.height_top_m[row]), float(tb.er_top[row])
+    if flip:
+        below = [(a, e) for a, e, _ in sec["above"]]
+        h_top, er_top = float(tb.height_m[row]), float(tb.er[row])
+    geom = LineGeometry(width_m=float(tb.width_m[row]), height_m=sum(a for a, _ in below),
+                        thickness_m=t_cu, er=below[-1][1], gap_m=float(tb.gap_m[row]),
+                        height_top_m=h_top if strip else math.nan, er_top=er_top if strip else math.nan,
+                        cover_m=0.0 if strip else float(tb.cover_m[row]),
+                        cover_er=1.0 if strip else float(tb.cover_er[row]))
+    return geom, hatch, below
+
+
+def _width_over_hatch(study: Any, tb: Any, row: int, factor: float) -> float | None:
+    """Width of row ``row`` whose impedance over the hatch (solid-plane value x factor) meets the
+    target: closed form x the row's field correction solved for target / factor, m."""
+    from strainline.models.lines import solve_width
+
+    corr = float(np.exp(tb.r_field[row, 0])) if tb.r_field is not None else 1.0
+    g = tb.geometry.take(np.array([row]))
+    w, ok = solve_width(study.line.type, study.line.target_ohm / (factor * corr), g,
+                        np.array([tb.width_lo_m[row]]), np.array([tb.width_hi_m[row]]))
+    w0 = float(np.asarray(w).reshape(-1)[0])
+    return w0 if bool(np.asarray(ok).reshape(-1)[0]) and math.isfinite(w0) else None
+
+
 def candidate_hatch(study: Any, tb: Any, row: int, hatched: list[int], sig: int, fills: dict[int, float],
                     cache: Any = None) -> tuple[dict[str, Any] | None, list[dict[str, str]]]:
     """The hatched-reference record and findings of one front candidate, when the study gives its
@@ -154,7 +191,6 @@ def candidate_hatch(study: Any, tb: Any, row: int, hatched: list[int], sig: int,
     hatch is the table's (solid-plane, field-accurate) impedance times the hatch factor, or times
     ``line.hatch_correction`` when the study gives a coupon-calibrated factor.
     """
-    from strainline.models.lines import LineGeometry
 
     hatches = getattr(study.stack, "ground_hatch", ())
     if not hatches or not hatched:
@@ -176,25 +212,16 @@ def candidate_hatch(study: Any, tb: Any, row: int, hatched: list[int], sig: int,
                                  "modelled: the impedance shown is the solid-plane value",
                                  "strainline's 3-D hatched-plane solver covers microstrip, stripline and pairs"))
         return out, findings
-    strip = kind in ("stripline", "coupled-stripline")
-    sec = tb.section(row)
-    below = [(a, e) for a, e, _ in sec["below"]]
-    h_top, er_top = float(tb.height_top_m[row]), float(tb.er_top[row])
-    if strip and p_lay > sig:      # the hatched plane is above the trace: solve the mirror image
-        below = [(a, e) for a, e, _ in sec["above"]]
-        h_top, er_top = float(tb.height_m[row]), float(tb.er[row])
-    geom = LineGeometry(width_m=float(tb.width_m[row]), height_m=sum(a for a, _ in below),
-                        thickness_m=hatch.thickness_m, er=below[-1][1], gap_m=float(tb.gap_m[row]),
-                        height_top_m=h_top if strip else math.nan, er_top=er_top if strip else math.nan,
-                        cover_m=0.0 if strip else float(tb.cover_m[row]),
-                        cover_er=1.0 if strip else float(tb.cover_er[row]))
+    geom, hatch, below = candidate_geometry(study, tb, row, pitch, width, angle,
+                                            kind in ("stripline", "coupled-stripline") and p_lay > sig)
     res = cached_hatch_solve(kind, geom, hatch, cache, layers_below=below)
     calibrated = study.line.hatch_correction
     factor = float(calibrated) if calibrated is not None else res.ratio
     z = float(tb.z_ohm[row]) * factor
     err = z / study.line.target_ohm - 1.0
     f_hz = study.line.frequency_ghz * GHZ
-    out.update({"hatch_factor": _r(factor, 5), "factor_source": "line.hatch_correction (coupon-calibrated)"
+    w_h = _width_over_hatch(study, tb, row, factor)
+    out.update({"width_over_hatch_um": _r(w_h / UM) if w_h is not None else None, "hatch_factor": _r(factor, 5), "factor_source": "line.hatch_correction (coupon-calibrated)"
                 if calibrated is not None else "3-D field solution", "solver_factor": _r(res.ratio, 5),
                 "z_ohm": _r(z), "error_pct": _r(100.0 * err, 4),
                 "quasi_static_limit_ghz": _r(res.f_quasi_static_hz / GHZ, 4),
@@ -207,8 +234,9 @@ def candidate_hatch(study: Any, tb: Any, row: int, hatched: list[int], sig: int,
         f"{100 * hatch.fill:.0f} % copper): impedance over the hatch {z:.2f} ohm ({100 * err:+.1f} % from the "
         f"target; factor {factor:.3f} {'from line.hatch_correction' if calibrated is not None else 'from a 3-D field solution'}"
         f"{'; the other plane is hatched too and is taken as solid, so this is a lower estimate' if both else ''})"
-        + ("; outside the nominal window: widen the trace over the hatch or choose a denser hatch"
-           if sev == "warning" else ""),
+        + ("; outside the nominal window at this width" if sev == "warning" else "")
+        + (f"; the width over the hatch for the target is {w_h / UM:.1f} um" if w_h is not None else
+           "; no width in the study's range meets the target over this hatch"),
         "strainline's 3-D hatched-plane field solver (quasi-static; inductance from the air capacitance)"))
     if f_hz > res.f_quasi_static_hz:
         findings.append(_finding(

@@ -326,6 +326,9 @@ class Problem:
                 G[:, k] = zs.max(axis=1) * 100.0 / lim.signal_strain_pct - 1.0
             elif c == "loss":
                 G[:, k] = tb.loss_db_per_m[row] / lim.loss_db_per_m - 1.0
+            elif c == "hatch_width":
+                from strainline.optimizer.search.hatchsearch import hatch_width_constraint
+                G[:, k] = hatch_width_constraint(self, slots, row)
             elif c == "fatigue_life":
                 G[:, k] = fatigue - 1.0
         # feasible rows (the only ones a front keeps) are rounded, so equal designs merge
@@ -377,6 +380,8 @@ def build_problem(space: Space, catalog) -> Problem:
         names.append("fatigue_life")
     if lim.min_yield_pct is not None:
         names.append("yield")
+    if study.stack.ground_hatch:
+        names.append("hatch_width")
     names += material.names(space)
     pb = Problem(space, table, tuple(study.objectives), names, allowed)
     pb.catalog = catalog
@@ -409,5 +414,6 @@ CONSTRAINT_TEXT = {
     "loss": "loss limit",
     "fatigue_life": "required fatigue life",
     "yield": "impedance yield at least limits.min_yield_pct under the fabrication tolerances",
+    "hatch_width": "over a hatched reference plane, a width in the range that meets the target impedance",
     **material.TEXT,
 }
