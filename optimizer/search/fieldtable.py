@@ -59,7 +59,7 @@ GOAL_PCT = 0.25
 #: (:mod:`strainline.optimizer.search.fieldrefine`), so its budget stays small.
 N_START = 24
 N_HOLDOUT = 12
-MAX_ROUNDS = 3
+MAX_ROUNDS = 2
 STRIP_KINDS = ("stripline", "coupled-stripline")
 
 
