@@ -388,3 +388,20 @@ def test_evolutionary_reports_what_it_did():
     assert r.info["generations"] >= 1 and r.info["scan_evaluations"] > 0
     assert r.info["stagnation_generations"] == max(30, 3000 // 30 // 3)     # scales with the budget
     assert r.stopped
+
+
+def test_cli_time_limit_sends_auto_to_the_evolutionary_search(tmp_path, capsys):
+    import json
+
+    from strainline.optimizer.cli.main import main
+
+    study = "studies/handheld-scanner-hinge.yaml"
+    from pathlib import Path
+    root = Path(__file__).resolve().parents[1]
+    assert main(["solve", str(root / study), "--out", str(tmp_path / "a"), "--quiet", "--method", "auto",
+                 "--budget", "300", "--time-limit", "1e-6", "--workers", "1"]) == 0
+    s = json.loads((tmp_path / "a" / "front.json").read_text())["search"]
+    assert s["method"] == "evolutionary" and s["time_limit_s"] == 1e-6 and s["projected_s"] > 1e-6
+    capsys.readouterr()
+    assert main(["solve", str(root / study), "--out", str(tmp_path / "b"), "--time-limit", "-1"]) == 2
+    assert "--time-limit" in capsys.readouterr().err

@@ -37,6 +37,17 @@ def _natural_int(text: str) -> int:
     return v
 
 
+def _seconds(text: str) -> float:
+    """argparse type: a time in seconds, > 0."""
+    try:
+        v = float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"{text} is not a number of seconds") from None
+    if not v > 0 or v == float("inf"):
+        raise argparse.ArgumentTypeError(f"{text} is out of range; allowed range (0, inf)")
+    return v
+
+
 def _address(text: str) -> str:
     """argparse type: a Dask scheduler address (not empty)."""
     if not text.strip():
@@ -61,6 +72,8 @@ def register(subparsers) -> argparse.ArgumentParser:
                    help="run past the stated limits (line-table size, projected exhaustive time) and replace "
                         "an --out folder that holds files other than strainline output")
     p.add_argument("--verify", action="store_true", help="field-solve every front candidate")
+    p.add_argument("--time-limit", type=_seconds, default=None, metavar="S",
+                   help="auto: enumerate when the projected time is at most S seconds (default 60)")
     p.add_argument("--workers", type=_positive_int, default=None,
                    help="local worker processes for the exhaustive search (default: every core) and --verify (default 1)")
     p.add_argument("--dask", metavar="ADDRESS", default=None, type=_address,
@@ -77,7 +90,7 @@ def register(subparsers) -> argparse.ArgumentParser:
 def solve(study_path: str | Path, out: str | Path | None = None, method: str | None = None,
           budget: int | None = None, seed: int | None = None, quiet: bool = True,
           catalog=None, *, force: bool = False, phases=None, preflight: bool = False,
-          workers: int | None = None, dask_address: str | None = None,
+          workers: int | None = None, dask_address: str | None = None, time_limit_s: float | None = None,
           impedance: str | None = None) -> tuple[dict, Path]:
     """Run a study end to end; return the front object and the output folder (files written).
 
@@ -146,6 +159,7 @@ def solve(study_path: str | Path, out: str | Path | None = None, method: str | N
         evaluate, sp.sizes, problem.n_obj, problem.n_con, m, b, s, study.search.population, progress,
         evaluate_exhaustive=ProblemEvaluator(problem, prune=True), workers=workers,
         dask_address=dask_address, force=force, space=sp, bound=_thickness_bound(problem),
+        **({} if time_limit_s is None else {"time_limit_s": time_limit_s}),
         notify=None if quiet else (lambda text: print(text, file=sys.stderr))), dask_address=dask_address)
     phases.start("front")
     front = build_front(problem, result, catalog, s)
@@ -198,7 +212,8 @@ def run(args: argparse.Namespace) -> int:
     with Phases(SOLVE_PHASES[:3] + (("verify",) if verify else ()) + SOLVE_PHASES[3:], quiet=args.quiet) as phases:
         front, out_dir = solve(args.study, args.out, args.method, args.budget, args.seed, quiet=args.quiet,
                                force=args.force, phases=phases, preflight=True, workers=args.workers,
-                               dask_address=args.dask, impedance=getattr(args, "impedance", None),
+                               dask_address=args.dask, time_limit_s=getattr(args, "time_limit", None),
+                               impedance=getattr(args, "impedance", None),
                                catalog=_user_catalog(args))
         if verify:
             from strainline.optimizer.search.verify import verify_front
