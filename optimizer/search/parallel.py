@@ -13,7 +13,9 @@ scattered to every Dask worker.
 from __future__ import annotations
 
 import copyreg
+import multiprocessing
 import os
+import sys
 from collections.abc import Callable
 from concurrent.futures import ProcessPoolExecutor, as_completed
 from types import MappingProxyType
@@ -142,7 +144,11 @@ def run_ranges(evaluate: Callable, sizes: np.ndarray, n_obj: int, start: int, st
         arch.merge(exhaustive_pieces(evaluate, sizes, n_obj, ranges, chunk, progress))
         return arch, 1
     tasks = make_tasks(ranges, workers * TASKS_PER_WORKER, align)
-    with ProcessPoolExecutor(max_workers=workers, initializer=_init_worker, initargs=(evaluate,)) as pool:
+    # fork shares the built problem without pickling it; Python 3.12+ warns about forking a process
+    # that runs threads (progress bars, clients), so there the workers come from a fork server
+    ctx = multiprocessing.get_context("forkserver") if sys.version_info >= (3, 12) and os.name == "posix" else None
+    with ProcessPoolExecutor(max_workers=workers, initializer=_init_worker, initargs=(evaluate,),
+                             mp_context=ctx) as pool:
         futures = {pool.submit(_local_task, sizes, n_obj, t, chunk): sum(b - a for a, b in t) for t in tasks}
         for fut in as_completed(futures):
             arch.merge(fut.result())
