@@ -245,3 +245,14 @@ def test_shipped_two_zone_study_with_its_catalog(tmp_path):
                         peak = max(peak, abs(t_), abs(b_))
             assert b["peak_copper_strain_pct"] == pytest.approx(100 * peak, rel=1e-9)
         assert c["bends"][1]["cycles_to_failure"] >= 5000 * (1 - 1e-9)
+
+
+def test_nothing_feasible_names_the_zone_limit_reached(tmp_path):
+    """A hinge life no stack reaches: the nearest candidate's fatigue figure is the hinge's (the
+    install fold has no life limit), cycles reached below the hinge's cycles required."""
+    f = _solve(tmp_path, study(bends=[FOLD, dict(HINGE, cycles=1e9)]), "hopeless")
+    assert not f["candidates"]
+    near = {n["constraint"]: n for n in f["search"]["infeasible"]["nearest"]}
+    fat = near["fatigue_life"]
+    assert fat["limit"] == 1e9 and fat["achieved"] is not None and fat["achieved"] < 1e9
+    assert f["search"]["infeasible"]["violations"]["fatigue_life"] > 0

@@ -326,11 +326,18 @@ def explain_infeasible(problem: Problem, arch) -> dict[str, Any]:
         parts = []
         ev = problem.evaluate(arch.near_X.reshape(1, -1), want_cycles=True)   # full evaluation (no pruning)
         near_G, lim, row = ev.G[0], problem.space.study.limits, int(ev.line_row[0])
+        # the strain and life limits hold in every bend zone: report the worst zone's figure
+        from strainline.optimizer.inputs.study_spec import required_cycles
+        zones = problem.space.study.bends
+        need = [required_cycles(problem.space.study, z) for z in zones]
+        life = [(ev.zone_cycles[0, k] / c, ev.zone_cycles[0, k], c) for k, c in enumerate(need)
+                if c is not None and ev.zone_cycles is not None]
+        life_got, life_need = (min(life)[1:] if life else (None, lim.min_cycles))
         reached = {"total_thickness": (lim.total_thickness_um, ev.total_thickness_m[0] / UM, "um", "at most"),
-                   "peak_strain": (lim.peak_strain_pct, 100 * ev.peak_strain[0], "%", "at most"),
-                   "signal_strain": (lim.signal_strain_pct, 100 * ev.signal_strain[0], "%", "at most"),
+                   "peak_strain": (lim.peak_strain_pct, 100 * ev.zone_peak[0].max(), "%", "at most"),
+                   "signal_strain": (lim.signal_strain_pct, 100 * ev.zone_signal[0].max(), "%", "at most"),
                    "loss": (lim.loss_db_per_m, problem.table.loss_db_per_m[row], "dB/m", "at most"),
-                   "fatigue_life": (lim.min_cycles, None if ev.cycles is None else ev.cycles[0], "cycles", "at least")}
+                   "fatigue_life": (life_need, life_got, "cycles", "at least")}
         for n, g in zip(names, near_G):
             if g > 0:
                 over = "equation outside its range" if n == "equation_range" else f"{100 * g:.1f} % over the limit"
