@@ -14,6 +14,7 @@ import json
 import math
 from typing import Any
 
+from strainline.optimizer.cli.numbers import number
 from strainline.optimizer.errors import InputError
 from strainline.optimizer.search.bend_report import INSIDES, MOTIONS, PLASTIC_SHIFT, USES, bend_report
 from strainline.optimizer.inputs.catalog import load_catalog
@@ -59,7 +60,7 @@ def register(subparsers) -> argparse.ArgumentParser:
                     "Estimates for concept work: verify with the fabricator and with flex testing.",
     )
     p.add_argument("stackup", metavar="STACKUP.yaml", help="stackup file (format: README.md, 'Bend mechanics')")
-    p.add_argument("--inner-radius-mm", required=True, type=_positive_mm, metavar="R",
+    p.add_argument("--inner-radius-mm", required=True, type=number("--inner-radius-mm"), metavar="R",
                    help="radius of the inner (mandrel) face of the bend, mm")
     p.add_argument("--inside", choices=INSIDES, default="bottom", help="which face is inside the bend (default bottom)")
     p.add_argument("--motion", choices=MOTIONS, default="flat-to-bent",
