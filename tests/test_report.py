@@ -288,3 +288,28 @@ def test_readme_example_output_is_a_real_run(repo_root):
     assert strip(quoted[0]) == strip(now[0])
     assert quoted[1:] == now[1:len(quoted)]
     assert int(m.group(3)) == 2 * len(front["candidates"]) + 1   # report.html, then a sheet pair each and the index
+
+
+def test_palette_is_one_place_and_copper_stays_copper(repo_root):
+    """report.css holds the family palette the page reads; its hues are the Okabe-Ito colour-blind-safe set
+    (M. Okabe and K. Ito, Color Universal Design, 2008: sky blue #56B4E9, yellow #F0E442, blue #0072B2, bluish
+    green #009E73, reddish purple #CC79A7, vermillion #D55E00), lightened towards white, and copper keeps the
+    hue of copper (#B87333, the common web 'copper' colour)."""
+    import colorsys
+
+    from strainline.optimizer.outputs.stack import FAMILY_COLOURS
+
+    css = (repo_root / "optimizer" / "outputs" / "static" / "report.css").read_text(encoding="utf-8")
+    given = dict(re.findall(r"--family-([a-z-]+):\s*(#[0-9a-fA-F]{6})", css))
+    assert {k: v.lower() for k, v in given.items()} == {k: v.lower() for k, v in FAMILY_COLOURS.items()}
+
+    def hsv(h):
+        return colorsys.rgb_to_hsv(*(int(h[i:i + 2], 16) / 255 for i in (1, 3, 5)))
+
+    okabe_ito = {"film": "#56B4E9", "adhesive": "#F0E442", "core": "#0072B2", "laminate": "#009E73",
+                 "cover": "#CC79A7"}
+    for fam, base in okabe_ito.items():         # same hue, lighter: a tint of the published colour
+        assert abs(hsv(given[fam])[0] - hsv(base)[0]) < 0.03, fam
+        assert hsv(given[fam])[1] < hsv(base)[1] + 1e-9, fam
+    assert given["copper"].lower() == "#b87333"
+    assert re.search(r"--signal-trace:\s*#D55E00", css)

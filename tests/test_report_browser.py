@@ -447,8 +447,8 @@ def test_field_check_mismatch_is_highlighted(browser_ctx, tmp_path):
 
 
 def test_bend_zones_switch_the_strain_profile(browser_ctx, tmp_path):
-    """A candidate with two bend zones: a button per zone redraws the strain profile with that zone's own
-    profile, and the zone table lists both; the sheet carries a row group per zone."""
+    """A candidate with two bend zones and two lines: a button per zone redraws the strain profile with that
+    zone's own profile, the zone and line tables list both; the sheet carries rows per zone and per line."""
     front = json.loads(FIXTURE.read_text(encoding="utf-8"))
     for c in front["candidates"]:
         y_na = c["bend"]["neutral_axis_um"]
@@ -462,6 +462,7 @@ def test_bend_zones_switch_the_strain_profile(browser_ctx, tmp_path):
         c["bend"] = dict(hinge)
         c["bends"] = [hinge, dict(c["bend"], name="fold", inner_radius_mm=1.0, use="install", profile=profile,
                                   peak_copper_strain_pct=max(abs(p["strain_top_pct"]) for p in profile))]
+        c["lines"] = [dict(c["line"], name="antenna feed"), dict(c["line"], name="clock", width_um=61.0)]
     (tmp_path / "front.json").write_text(json.dumps(front), encoding="utf-8")
     assert main(["report", str(tmp_path), "--quiet"]) == 0
     page, log = _open(browser_ctx, (tmp_path / "report.html").as_uri())
@@ -475,8 +476,11 @@ def test_bend_zones_switch_the_strain_profile(browser_ctx, tmp_path):
         want = [[p["strain_bottom_pct"], p["strain_top_pct"]] for p in cand["bends"][1]["profile"]]
         assert xs == want
         assert "fold" in page.evaluate("document.getElementById('strain').layout.title.text")
+        lines = page.evaluate("[...document.querySelectorAll('#line-table tbody tr')].map(r => r.children[0].textContent)")
+        assert lines == ["antenna feed", "clock"]                # several lines: one row each
     finally:
         page.close()
     assert log["errors"] == []
     sheet = pd.read_csv(tmp_path / "handoff" / f"{cand['id']}.csv", dtype=str, keep_default_na=False)
-    assert {"bends[0].inner_radius_mm", "bends[1].inner_radius_mm"} <= set(sheet["key"])
+    assert {"bends[0].inner_radius_mm", "bends[1].inner_radius_mm", "lines[1].width_um"} <= set(sheet["key"])
+    assert float(sheet.loc[sheet["key"] == "lines[1].width_um", "value"].iloc[0]) == 61.0

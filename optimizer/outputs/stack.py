@@ -7,17 +7,19 @@ from typing import Any
 
 from strainline.optimizer.outputs.formatting import is_num
 
-#: Material families and the colours this report gives them (our own palette).
+#: Material families the report colours, with the palette of ``static/report.css`` (the page reads the
+#: CSS custom properties ``--family-<name>``; these values are its fallback). Okabe-Ito colour-blind-safe
+#: hues, lightened, one per family; copper stays copper-coloured (reason in report.css).
 FAMILY_COLOURS: dict[str, str] = {
-    "copper": "#b5652d",
-    "film": "#e4c77b",
-    "adhesive": "#a9d3bd",
-    "core": "#d6a85c",
-    "laminate": "#9db3d3",
-    "cover": "#c3b1dd",
-    "stiffener": "#9a9a9a",
+    "copper": "#b87333",
+    "film": "#9fd3f0",
+    "adhesive": "#f6ee9a",
+    "core": "#7fb3d9",
+    "laminate": "#7fcfb9",
+    "cover": "#e6b8d3",
+    "stiffener": "#b3b3b3",
     "air-gap": "#ffffff",
-    "other": "#d0d0d0",
+    "other": "#dddddd",
 }
 
 
