@@ -361,6 +361,9 @@ OPTION_CASES = [
     ([*("bend",), *_B, "--use", "dynamic", "--cycles", "0"], "--cycles: '0' is out of range"),
     ([*("bend",), *_B, "--use", "dynamic", "--cycles", "nan"], "--cycles: 'nan' is out of range"),
     ([*("bend",), *_B, "--use", "dynamic", "--cycles", "-5"], "--cycles: '-5' is out of range"),
+    # regression: 1e300 cycles was accepted and printed a minimum radius of 5e38 mm
+    ([*("bend",), *_B, "--use", "dynamic", "--cycles", "1e300"], "must be >= 1 and <= 1e12 cycles"),
+    ([*("bend",), *_B, "--use", "dynamic", "--cycles", "1e20"], "--cycles: '1e20' is out of range"),
     ([*("bend",), *_B, "--elongation-fraction", "0"], "allowed (0, 1]"), ([*("bend",), *_B, "--elongation-fraction", "1.5"], "(0, 1]"),
     ([*("bend",), *_B, "--elongation-fraction", "x"], "'x' is not a number"),
     ([*("bend",), *_B, "--bogus"], "unknown option or extra value: --bogus"), ([*("bend",), *_B, "extra"], "extra"),

@@ -36,8 +36,9 @@ def _cycles(text: str) -> float:
         v = float(text)
     except ValueError:
         raise argparse.ArgumentTypeError(f"{text!r} is not a number; give a life >= 1 cycle") from None
-    if not (math.isfinite(v) and v >= 1):
-        raise argparse.ArgumentTypeError(f"{text!r} is out of range; the target life must be >= 1 cycle")
+    if not (math.isfinite(v) and 1 <= v <= 1e12):   # the study's bend.cycles range
+        raise argparse.ArgumentTypeError(f"{text!r} is out of range; the target life must be >= 1 and <= 1e12 "
+                                         "cycles")
     return v
 
 
