@@ -288,3 +288,26 @@ def test_unbonded_candidate_shows_the_bonded_build():
     cand["layers"][3]["thickness_um"] = 7.0
     assert bonded_build(cand) == {3: "bond material to be agreed (7.0 um)"}
     assert leaf_of_layers(cand["layers"]) == [1, 1, 1, None, 2]
+
+
+def test_hatch_yield_and_field_verdict_read_from_front_json(front):
+    """Keys other parts of strainline add to a candidate show when present: the hatch geometry a study gives
+    (line.hatch), the impedance yield (line.impedance_yield) and a failed field verification."""
+    from strainline.optimizer.outputs.pagedata import field_flag
+
+    cat = load_catalog()
+    cand = json.loads(json.dumps(front["candidates"][0]))
+    sig_copper = [i for i, lay in enumerate(cand["layers"]) if lay["kind"] == "copper"].index(4) + 1
+    cand["line"]["hatch"] = {"layer": sig_copper, "pitch_um": 500.0, "line_width_um": 39.0, "angle_deg": 45.0}
+    cand["line"]["impedance_yield"] = {"yield_pct": 93.25, "dominant": "trace width"}
+    files = build_handoff(dict(front, candidates=[cand]), cat)
+    df = pd.read_csv(io.StringIO(files[f"{cand['id']}.csv"]), dtype=str, keep_default_na=False)
+    hatch = df[df["quantity"].str.startswith("hatch of L2 signal")]
+    assert hatch["value"].iloc[0] == "pitch 500 um, line width 39 um, angle 45 deg"
+    yld = df[df["key"] == "line.impedance_yield.yield_pct"]
+    assert float(yld["value"].iloc[0]) == 93.25 and "trace width" in yld["note"].iloc[0]
+    cand["line"]["field_check"] = dict(cand["line"]["field_check"], passed=False, reasons=["width out of range"])
+    flag = field_flag(cand, front, cat)
+    assert flag["mismatch"] and "width out of range" in flag["text"]
+    ok = front["candidates"][0]
+    assert field_flag(ok, front, cat)["mismatch"] is False         # 49.12 ohm: -1.8 % of 50, inside +/-10 %
