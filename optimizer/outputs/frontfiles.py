@@ -113,7 +113,7 @@ def format_table(front: dict[str, Any], limit: int = 25) -> str:
         row = [c["id"]] + [_fmt(c["objectives"][k]) for k in okeys] + [
             f"L{ln['layer']}", _fmt(ln["width_um"]), _fmt(ln["gap_um"]), _fmt(z),
             _fmt(c["bend"]["total_thickness_um"]), _fmt(c["bend"]["peak_copper_strain_pct"]),
-            "-" if cyc is None else f"{cyc:.3g}"]
+            "-" if cyc is None else _sig3(cyc)]
         table.append(row)
     widths = [max(len(r[i]) for r in table) for i in range(len(head))]
     for r in table:
@@ -123,13 +123,18 @@ def format_table(front: dict[str, Any], limit: int = 25) -> str:
     return "\n".join(lines)
 
 
+def _sig3(v: float) -> str:
+    """Three significant figures written out with thousands separators (``59,700``), scientific from 1e9."""
+    return f"{v:.3g}" if abs(v) >= 1e9 else f"{float(f'{v:.3g}'):,.0f}"
+
+
 def _fmt(v: Any) -> str:
     if v is None:
         return "-"
     if isinstance(v, float):
         a = abs(v)
         if a >= 1e5:
-            return f"{v:.3g}"
+            return _sig3(v)
         if a >= 100:
             return f"{v:.1f}"
         return f"{v:.3f}" if a < 10 else f"{v:.2f}"
