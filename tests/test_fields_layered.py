@@ -9,7 +9,6 @@ from __future__ import annotations
 import math
 
 import pytest
-
 from strainline.models.fields import field_solve
 from strainline.models.fields.grid import Box, Problem, bisect, graded_points, solve
 from strainline.models.lines import LineGeometry

@@ -14,7 +14,6 @@ from pathlib import Path
 
 import pytest
 import yaml
-
 from strainline.models.fields import field_solve
 from strainline.models.lines import LineGeometry, evaluate_line
 
@@ -73,7 +72,7 @@ def _bands_from_layers(cand: dict) -> tuple[list, list, tuple, float]:
     layers = cand["layers"]
     cu = [i for i, lay in enumerate(layers) if lay["kind"] == "copper"]
     sig = cu[cand["line"]["layer"] - 1]
-    band = lambda lay: (lay["thickness_um"] * UM, lay["dk"], lay["df"])  # noqa: E731
+    band = lambda lay: (lay["thickness_um"] * UM, lay["dk"], lay["df"])
     if sig == cu[0]:          # top copper: plane below, cover above
         below = [band(x) for x in layers[sig + 1:cu[1]]][::-1]
         above = [band(x) for x in layers[:sig]][::-1]
@@ -166,7 +165,11 @@ def test_verify_removes_a_candidate_that_misses_and_says_so(fronts):
 
 def test_cache_makes_a_rerun_free_and_gives_the_same_numbers(tmp_path):
     from strainline.optimizer.search.fieldcache import CACHE_ENV, FieldCache, cache_dir
-    from strainline.optimizer.search.fieldsolve import Section, SolveStats, solve_sections
+    from strainline.optimizer.search.fieldsolve import (
+        Section,
+        SolveStats,
+        solve_sections,
+    )
 
     secs = [Section("microstrip", w * UM, 12 * UM, math.nan, ((50 * UM, 3.3, 0.004),),
                     ((25 * UM, 3.6, 0.03), (12.5 * UM, 3.3, 0.008)), (3.6, 0.03)) for w in (80.0, 120.0)]
@@ -190,7 +193,11 @@ def test_cache_makes_a_rerun_free_and_gives_the_same_numbers(tmp_path):
 def test_table_solves_on_processes_and_dask_give_the_same_numbers(tmp_path):
     # The same cross-sections solved in this process, on local worker processes and on a local Dask
     # cluster: the solver is deterministic, so the records must be identical (no cache involved).
-    from strainline.optimizer.search.fieldsolve import Section, SolveStats, solve_sections
+    from strainline.optimizer.search.fieldsolve import (
+        Section,
+        SolveStats,
+        solve_sections,
+    )
 
     secs = [Section("stripline", w * UM, 12 * UM, math.nan, ((50 * UM, 3.0, 0.002), (12.5 * UM, 3.6, 0.02)),
                     ((12.5 * UM, 3.6, 0.02), (50 * UM, 3.0, 0.002)), (3.6, 0.02)) for w in (50.0, 60.0, 70.0, 80.0)]
@@ -198,7 +205,7 @@ def test_table_solves_on_processes_and_dask_give_the_same_numbers(tmp_path):
     st = SolveStats()
     procs = solve_sections(secs, workers=2, stats=st)
     assert st.backend == "processes"
-    key = lambda rs: [(r["z"], r["eps"], r["tan"]) for r in rs]  # noqa: E731
+    key = lambda rs: [(r["z"], r["eps"], r["tan"]) for r in rs]
     assert key(procs) == key(serial)
     distributed = pytest.importorskip("dask.distributed")
     with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True, host="127.0.0.1",

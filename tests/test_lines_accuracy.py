@@ -11,7 +11,6 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
-
 from strainline.models.fields import field_solve
 from strainline.models.lines import LineGeometry, composite_er, evaluate_line
 

@@ -10,7 +10,6 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
-
 from strainline.models.fields import field_solve
 from strainline.models.lines import LineGeometry, evaluate_line
 from strainline.models.lines.coplanar import coplanar

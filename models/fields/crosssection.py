@@ -35,6 +35,12 @@ Cross-section conventions (all SI)
   y = 0, otherwise the substrate has air below.
 * Laterally the domain is closed by grounded walls ``open_margin`` times the largest dimension
   away (stripline: 10 plane spacings, where the field has decayed by exp(-10 pi)).
+* Real layered sections (``layers_below``, ``layers_above``, ``fill``): each film, adhesive and
+  cover its own band of (thickness, Dk[, loss tangent]) from the plane up to the trace, from the
+  trace's top face up (a cover with air above it, or a stripline's gap up to its second plane),
+  and the band of the copper's own thickness beside the trace (default: the first band above, air
+  when there is none). With loss tangents the result carries ``tan_eff``, the electric-energy-
+  weighted loss tangent, for the dielectric loss.
 
 Convergence control
 -------------------

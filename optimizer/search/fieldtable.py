@@ -35,7 +35,6 @@ import math
 from dataclasses import dataclass, field
 
 import numpy as np
-
 from strainline.optimizer.search.fieldcorrection import (  # noqa: F401 - re-exported
     Correction,
     corrected_widths,

@@ -25,7 +25,6 @@ from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
-
 from strainline.models.units import GHZ, UM
 from strainline.optimizer.search.space import Space
 from strainline.optimizer.search.tablegeometry import (  # noqa: F401 - table_rows re-exported
@@ -318,7 +317,12 @@ def build_line_table(space: Space, catalog, impedance: str | None = None) -> Lin
     direct = False
     if mode == "field":
         from strainline.optimizer.search.fieldcache import FieldCache
-        from strainline.optimizer.search.fieldtable import DIRECT_MAX, FieldInfo, distinct_rows, field_values
+        from strainline.optimizer.search.fieldtable import (
+            DIRECT_MAX,
+            FieldInfo,
+            distinct_rows,
+            field_values,
+        )
 
         n_distinct = int(distinct_rows(kind, geom, bands)[0].size)
         direct = n_distinct <= DIRECT_MAX

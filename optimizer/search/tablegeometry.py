@@ -11,7 +11,6 @@ from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
-
 from strainline.optimizer.search.space import Space
 
 #: Line kinds that sit on an outer copper layer under the cover.
