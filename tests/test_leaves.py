@@ -172,7 +172,7 @@ def test_fill_follows_lamination_in_the_search():
 
 
 def test_material_limit_columns_against_their_rules():
-    # cover minimum radius: photoimageable cover 0.4 in = 10.16 mm (K. Smith, Flex007 column part II,
+    # cover minimum radius: photoimageable cover 0.4 in = 10.16 mm (K. Smith, trade-magazine column, part II,
     # 2019) at a 1.5 mm bend -> 10.16 / 1.5 - 1; a bare copper face in a dynamic bend -> +1 (common
     # practice, no source); dielectric strain over elongation x 0.5 (derating common practice, no source).
     d = copy.deepcopy(HAND)

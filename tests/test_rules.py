@@ -166,7 +166,7 @@ def test_dielectric_strain_within_derated_elongation():
 
 
 def test_cover_minimum_radius_and_cover_on_both_faces():
-    # Photoimageable cover minimum bend radius 0.4 in = 10.16 mm (K. Smith, Flex007 column part II, 2019)
+    # Photoimageable cover minimum bend radius 0.4 in = 10.16 mm (K. Smith, trade-magazine column, part II, 2019)
     pic = Layer("pic", "dielectric", 20 * UM, 2.0 * GPA, 0.35, 3.6, 0.028, "inline", family="cover",
                 min_bend_radius_m=10.16e-3)
     s = Stackup((pic, cu("sig"), diel("base", 45)))

@@ -5,7 +5,7 @@
                      the largest over the stack, minus 1. Elongation at break from the catalog;
                      the derating is a stated design margin (common practice, no source).
 ``cover_radius``     the bend's inner radius against the minimum bend radius the catalog gives for
-                     a cover (e.g. a photoimageable cover, about 10 mm: K. Smith, Flex007 column
+                     a cover (e.g. a photoimageable cover, about 10 mm: K. Smith, trade-magazine column
                      part II, 2019); measured at the inner radius (every cover sits at or outside it).
 ``cover``            dynamic bend only, unless ``bend.allow_uncovered``: +1 when a copper layer is
                      bare at a face of its leaf (no dielectric between it and the outside or an air
