@@ -409,6 +409,11 @@ OPTION_CASES = [
     (["line", "microstrip", "--width-um", "100", "--hatch-pitch-um", "500", *_MS], "needs both --hatch-pitch-um and"),
     (["line", "microstrip", "--width-um", "100", "--hatch-pitch-um", "500", "--hatch-width-um", "100",
       "--hatch-angle-deg", "30", *_MS], "--hatch-angle-deg: 30 is not one of [45, 90]"),
+    # regression: hatch lines wider than the pitch were silently cut to the pitch (a solid plane)
+    (["line", "microstrip", "--width-um", "100", "--hatch-pitch-um", "500", "--hatch-width-um", "600", *_MS],
+     "--hatch-width-um: 600 must be below --hatch-pitch-um 500 um"),
+    (["line", "microstrip", "--width-um", "100", "--hatch-pitch-um", "500", "--hatch-width-um", "500", *_MS],
+     "equal = a solid plane"),
     (["line", "microstrip", "--width-um", "100", "--bogus", *_MS], "unknown option or extra value: --bogus"),
     (["line"], "missing KIND"),
     # catalog

@@ -73,6 +73,9 @@ def hatch_from_args(pitch_um: float | None, width_um: float | None, angle_deg: f
                              ("--hatch-width-um", width_um, 5.0, 20000.0)):
         if not (math.isfinite(val) and lo <= val <= hi):
             raise InputError(f"{val:g} is outside {lo:g} .. {hi:g} um", opt)
+    if not width_um < pitch_um:   # as the study's stack.ground_hatch
+        raise InputError(f"{width_um:g} must be below --hatch-pitch-um {pitch_um:g} um (equal = a solid plane)",
+                         "--hatch-width-um")
     angle = 45.0 if angle_deg is None else float(angle_deg)
     if angle not in (45.0, 90.0):
         raise InputError(f"{angle_deg:g} is not one of [45, 90] degrees", "--hatch-angle-deg")
