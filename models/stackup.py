@@ -154,20 +154,29 @@ def resolve_fills(layers: tuple[Layer, ...]) -> tuple[Layer, ...]:
     Otherwise the gaps hold what flows into them during lamination: the adjacent bond or coverlay
     adhesive, or a photoimageable cover (:data:`FLOWING_FAMILIES`; the layer above first, then the
     one below). A film or core does not flow, nor does an air gap, so with no flowing neighbour the
-    fill is air (modulus 0). Zero-thickness layers are skipped when looking for the neighbour.
+    fill is air (modulus 0). A copper at the edge of the stack or next to an air gap on one side only
+    is filled from that side alone (its cover, else air): the adhesive on its core side was cured
+    before the copper was etched. Zero-thickness layers are skipped when looking for the neighbour.
     """
     out = list(layers)
     for i, lay in enumerate(layers):
         if not lay.needs_fill or lay.fill_modulus_pa is not None:
             continue
-        nbrs = []
+        nbrs: list[Layer | None] = []
         for step in (-1, 1):
             j = i + step
             while 0 <= j < len(layers) and layers[j].thickness_m == 0 and layers[j].kind != "air-gap":
                 j += step
-            if 0 <= j < len(layers):
-                nbrs.append(layers[j])
-        flowing = [n for n in nbrs if n.kind == "dielectric" and n.family in FLOWING_FAMILIES]
+            nbrs.append(layers[j] if 0 <= j < len(layers) else None)
+        # a copper at the edge of the stack or next to an air gap is outer on that side: what is laid
+        # over it there (its cover) decides alone, because the other side was bonded before etching
+        outer = [n is None or n.kind == "air-gap" for n in nbrs]
+        if outer[0] and not outer[1]:
+            nbrs = [nbrs[0]]
+        elif outer[1] and not outer[0]:
+            nbrs = [nbrs[1]]
+        flowing = [n for n in nbrs if n is not None and n.kind == "dielectric"
+                   and n.family in FLOWING_FAMILIES]
         pick = (flowing or [None])[0]
         if pick is None:
             out[i] = replace(lay, fill_modulus_pa=0.0, fill_poisson=0.0, fill_material="air")

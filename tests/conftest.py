@@ -24,3 +24,18 @@ def run_cli(capsys):
         return code, out, err
 
     return _run
+
+
+@pytest.fixture(scope="session", autouse=True)
+def _private_field_cache(tmp_path_factory):
+    """Every test session solves into its own field cache, so results never depend on what an
+    earlier run (or the user's own runs) left in ``~/.cache/strainline``."""
+    import os
+
+    old = os.environ.get("STRAINLINE_CACHE_DIR")
+    os.environ["STRAINLINE_CACHE_DIR"] = str(tmp_path_factory.mktemp("field-cache"))
+    yield
+    if old is None:
+        os.environ.pop("STRAINLINE_CACHE_DIR", None)
+    else:
+        os.environ["STRAINLINE_CACHE_DIR"] = old

@@ -114,6 +114,8 @@ FIELD_CASES = [
     ("bend__motion", "reverse", "did you mean 'reversed'"), ("bend__region", "unbond", "did you mean 'unbonded'"),
     ("bend__leaves", [[1], [2]], "only applies to an unbonded bend"), ("bend__allow_uncovered", "yes", "[true, false]"),
     ("bend__allow_uncovered", 1, "[true, false]"), ("bend__plane_strain", "no", "[true, false]"),
+    # an option that does not apply is an error, never silently ignored (issue text: options that don't apply)
+    ("bend__use", "install", "bend.cycles: only applies to use: dynamic"),
     ("stack__copper_layers", 0, "allowed range [1, 8]"), ("stack__copper_layers", 9, "out of range"),
     ("stack__copper_layers", 2.5, "is not an integer"), ("stack__copper_layers", "2", "is not an integer"),
     ("stack__copper_layers", True, "is not an integer"), ("stack__copper_layers", 10 ** 400, "stack.copper_layers"),
@@ -343,7 +345,7 @@ _B = [STACKUP, "--inner-radius-mm", "2"]
 OPTION_CASES = [
     # top level
     ([], "missing COMMAND"), (["bogus"], "'bogus' is not one of ['solve', 'report', 'bend', 'line', 'catalog']"),
-    (["solv"], "did you mean 'solve'"),
+    (["solv"], "did you mean 'solve'"), (["--bogus"], "unknown option '--bogus' before the command"),
     # bend
     (["bend", STACKUP], "missing --inner-radius-mm"), (["bend", STACKUP, "--inner-radius-mm"], "--inner-radius-mm: needs a value"),
     (["bend", STACKUP, "--inner-radius-mm", "0"], "must be > 0 and <= 100000"),

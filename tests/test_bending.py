@@ -502,3 +502,14 @@ def test_stackup_records_validate_and_mirror():
     bot = b.bend_strains(m.thickness_m, m.modulus_pa, 1e-3, True, m.leaf)
     keep = ~a.is_air_gap[0]
     np.testing.assert_allclose(top.strain_top[0, keep], bot.strain_bottom[0, ::-1][keep], rtol=1e-12)
+
+
+def test_bare_outer_copper_in_a_stackup_file_is_air_filled():
+    # [V] fill follows lamination (bending note section 1.6): the adhesive under an outer foil is cured
+    # before the copper is etched, so a bare outer copper has air in its gaps; a covered one takes the
+    # cover adhesive.
+    s = Stackup((cu("c", 18, coverage=0.4), diel("adh", 25, 1.0, 0.4, family="adhesive"), diel("film", 25, 2.8)))
+    assert s.layers[0].fill_material == "air" and s.layers[0].fill_modulus_pa == 0.0
+    s2 = Stackup((diel("cadh", 25, 1.5, 0.4, family="adhesive"), cu("c", 18, coverage=0.4),
+                  diel("adh", 25, 1.0, 0.4, family="adhesive"), diel("film", 25, 2.8)))
+    assert s2.layers[1].fill_modulus_pa == 1.5e9

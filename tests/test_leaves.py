@@ -238,3 +238,25 @@ def test_cover_column_equals_a_scan_of_the_decoded_layers(over):
     got = pb.evaluate(x).G[:, pb.constraint_names.index("cover")]
     np.testing.assert_array_equal(got, ref)
     assert (ref > 0).any() and (ref < 0).any()
+
+
+def test_bare_outer_copper_is_not_filled_by_its_core_adhesive():
+    # [V] fill follows lamination: the bond adhesive under an outer foil is cured before the copper is
+    # etched, so a bare (uncovered) hatched outer copper has air in its gaps even with an adhesive
+    # below it; under a coverlay the coverlay adhesive fills them. The same rule holds in a stackup file.
+    d = copy.deepcopy(HAND)
+    d["bend"] = {"inner_radius_mm": 5, "use": "install"}
+    d["stack"].update(copper_layers=2, order="free", adhesive=["acrylic-adhesive"],
+                      coverlay=["polyimide-coverlay-acrylic", "none"])
+    d["stack"]["adhesive_thickness_um"] = [25]
+    sp = build_space(validate_study(d, CAT), CAT)
+    ecu = CAT.foil("rolled-annealed").modulus_pa
+    acryl = CAT.dielectric("acrylic-adhesive").modulus_pa
+    for cover, fill in (("none", 0.0), ("polyimide-coverlay-acrylic 12.5um/25um", acryl)):
+        x = _x(sp, **{"cover[top]": cover, "cover[bottom]": cover})
+        t, e, _, _ = sp.mechanics(x)
+        dec = sp.decode(x)
+        assert dec.thickness_m[0, sp.cu_col(0) + 1] > 0 or dec.thickness_m[0, sp.cu_col(0) + 3] > 0
+        assert e[0, sp.cu_col(0)] == pytest.approx(0.25 * ecu + 0.75 * fill, rel=1e-12)
+        assert dec.modulus_pa[0, sp.cu_col(0)] == pytest.approx(0.25 * ecu + 0.75 * fill, rel=1e-12)
+

@@ -198,7 +198,10 @@ def test_every_shipped_study_runs(path, tmp_path, run_cli):
                              "--quiet")
     assert code == 0, err
     front = json.loads((tmp_path / "front.json").read_text())
-    assert front["search"]["method"] == "evolutionary" and front["search"]["evaluated"] <= 1500 + 100
+    s = front["search"]
+    assert s["method"] == "evolutionary"
+    assert s["generation_evaluations"] + s["local_search_evaluations"] <= 1500 + 100
+    assert s["feasible"] <= s["evaluated"]
     assert "caution" in out and "wrote" in out
     assert (tmp_path / "front.csv").exists()
 

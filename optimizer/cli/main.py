@@ -109,7 +109,14 @@ def main(argv: Sequence[str] | None = None) -> int:
     """Run ``strainline`` with ``argv`` (default: ``sys.argv[1:]``) and return the exit code."""
     argv = list(sys.argv[1:] if argv is None else argv)
     try:
-        parser = build_parser(_command_of(argv))
+        command = _command_of(argv)
+        if command is None:
+            stray = [w for w in argv if w.startswith("-") and w not in ("-h", "--help", "--version")]
+            if stray:
+                raise InputError(f"unknown option {stray[0]!r} before the command; the commands are "
+                                 + ", ".join(COMMANDS) + " (strainline COMMAND --help lists their options)",
+                                 "strainline")
+        parser = build_parser(command)
         args = parser.parse_args(argv)
         return int(args._run(args) or 0)
     except StrainlineError as exc:

@@ -12,6 +12,9 @@ from strainline.optimizer.errors import not_one_of
 from strainline.optimizer.inputs import study_spec as S
 from strainline.optimizer.inputs.modelkit import show
 
+#: Most bend zones one study may hold (each adds a strain evaluation per candidate).
+MAX_ZONES = 16
+
 
 def bend_zones(m: Any, ncu: int, err: Any) -> tuple[S.BendSpec, ...]:
     """The bend zones: ``bend:`` (one zone) or ``bends:`` (several), each checked; zones share the
@@ -34,6 +37,9 @@ def bend_zones(m: Any, ncu: int, err: Any) -> tuple[S.BendSpec, ...]:
     models = list(m.bends) if many else [m.bend]
     if not models:
         raise err("bends", "is empty; give at least one bend zone")
+    if len(models) > MAX_ZONES:
+        raise err("bends", f"has {len(models)} zones; at most {MAX_ZONES} are allowed (each zone is a "
+                           "full set of strain evaluations per candidate)")
     out: list[S.BendSpec] = []
     for i, bd in enumerate(models):
         at = f"bends[{i}]" if many else "bend"
@@ -42,6 +48,12 @@ def bend_zones(m: Any, ncu: int, err: Any) -> tuple[S.BendSpec, ...]:
             raise err(f"{at}.name", f"{name!r} is used by an earlier zone; zone names must be unique")
         if bd.cycles is None and bd.use == "dynamic":
             raise err(f"{at}.cycles", "is required for dynamic use (the number of flex cycles the product needs)")
+        if bd.cycles is not None and bd.use != "dynamic":
+            raise err(f"{at}.cycles", f"only applies to use: dynamic ({at}.use is {bd.use}); remove it or "
+                                      f"set {at}.use: dynamic")
+        if bd.allow_uncovered and bd.use != "dynamic":
+            raise err(f"{at}.allow_uncovered", f"only applies to use: dynamic ({at}.use is {bd.use}, "
+                                               "where no cover is required); remove it")
         leaves = bd.leaves
         if leaves is not None:
             if bd.region != "unbonded":

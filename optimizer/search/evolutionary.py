@@ -397,5 +397,6 @@ def evolutionary(evaluate: Evaluator, sizes: np.ndarray, n_obj: int, n_con: int,
             progress.update(min(used + ls_used, budget), budget)
     info = {"generations": gens, "generation_evaluations": gen_used, "local_search_evaluations": ls_used,
             "scan_evaluations": scanned, "scan_feasible": int(len(seeds)), "stagnation_generations": stag}
-    return SearchResult("evolutionary", arch, gen_used + ls_used, space_size(sizes),
+    # evaluated counts every candidate the run evaluated, the seeding scan included (info splits it)
+    return SearchResult("evolutionary", arch, gen_used + ls_used + scanned, space_size(sizes),
                         time.perf_counter() - t0, stopped, history, info)

@@ -7,7 +7,10 @@ modulus, leaf ids) from per-option column blocks (:func:`blocks`) and must equal
 Fill rule (follows lamination; README.md, bend mechanics): a patterned copper layer is filled by
 what flows into its gaps during lamination -- the adjacent bond or coverlay adhesive, or a
 photoimageable cover (the nearest non-empty layer above first, then below); a film, a core or an
-air gap does not flow, so with no flowing neighbour the fill is air (modulus 0). The copper layer
+air gap does not flow, so with no flowing neighbour the fill is air (modulus 0). A side that holds
+a cover (an outer copper, or a leaf face bordering air in an unbonded region) decides alone: the
+copper is filled by its cover's flowing layer, else air, because the adhesive on its core side was
+cured before the copper was etched. The copper layer
 then takes the Voigt modulus ``f E_Cu + (1 - f) E_fill`` (R. M. Jones, *Mechanics of Composite
 Materials*, iso-strain bound).
 """
@@ -87,6 +90,8 @@ def decode(sp: Any, x: np.ndarray) -> Decoded:
     N, L = sp.n_cu, sp.n_layers
     a = sp.arr
     t, mat, is_air, ok = _plan(sp, s)
+    if sp.unbonded:
+        boundary, film_up, _ = leaf_state(sp, s)
     m_safe = np.where(mat >= 0, mat, 0)
     E = np.where(mat >= 0, a["mat_E"][m_safe], 0.0)
     nu = np.where(mat >= 0, a["mat_nu"][m_safe], 0.0)
@@ -115,8 +120,16 @@ def decode(sp: Any, x: np.ndarray) -> Decoded:
         (up, dn) = near
         u_fl = (up >= 0) & flows[rows, np.maximum(up, 0)]
         d_fl = (dn >= 0) & flows[rows, np.maximum(dn, 0)]
-        pick = np.where(u_fl, up, dn)
-        has = u_fl | d_fl
+        # a side that holds a cover (outer copper, or a leaf face bordering air) decides alone
+        above_cov = np.full(n, i == 0)
+        below_cov = np.full(n, i == N - 1)
+        if sp.unbonded:
+            if i > 0:
+                above_cov = above_cov | (boundary[:, i - 1] & film_up[:, i - 1])
+            if i < N - 1:
+                below_cov = below_cov | (boundary[:, i] & ~film_up[:, i])
+        pick = np.where(above_cov, up, np.where(below_cov, dn, np.where(u_fl, up, dn)))
+        has = np.where(above_cov, u_fl, np.where(below_cov, d_fl, u_fl | d_fl))
         fill[:, c] = np.where(has, E[rows, pick], 0.0)
         fill_nu[:, c] = np.where(has, nu[rows, pick], 0.0)
         fill_mat[:, c] = np.where(has, mat[rows, pick], -2)
@@ -252,6 +265,13 @@ def blocks(sp: Any) -> dict[str, np.ndarray]:
     de = np.concatenate([cov_fE, np.where(t_up > 0, Ea, Ef)])
     da = np.concatenate([cov_fl, np.where(t_up > 0, flows(gma), flows(gmf))])
     fill = np.where(ua[:, None], ue[:, None], np.where(da[None, :], de[None, :], 0.0))
+    # a cover side decides alone: an outer (or leaf-face) copper is filled by its cover's flowing
+    # layer, else air -- the adhesive on its core side was cured before the copper was etched
+    n_c = len(cov_fE)
+    row_cov = np.arange(len(ue)) < n_c
+    col_cov = np.arange(len(de)) < n_c
+    fill = np.where(row_cov[:, None], np.where(ua, ue, 0.0)[:, None],
+                    np.where(col_cov[None, :], np.where(da, de, 0.0)[None, :], fill))
 
     def inv_elong(m: np.ndarray, t: np.ndarray) -> np.ndarray:
         ms = np.where(m >= 0, m, 0)

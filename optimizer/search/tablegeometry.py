@@ -155,8 +155,8 @@ def _bands(space: Space, kind: str, c: dict[str, np.ndarray]) -> dict[str, np.nd
     (trace up: the cover, or the gap up to the second plane) and the fill beside the trace.
 
     Fill: an outer line is embedded in the layer of its cover next to the copper (air when bare);
-    an inner line in the adjacent adhesive above, else the one below, else the dielectric above
-    (the rule the mechanics uses for the copper layer's fill, :mod:`.space`).
+    an inner line in the adjacent adhesive above, else the one below, else air (the rule the
+    mechanics uses for the copper layer's fill, :mod:`.mechanics`).
     """
     gb_t, gb_e, gb_d = _gap_bands(space, c["fb"], c["ab"], c["pb"])   # gap below the trace, top->bottom
     ga_t, ga_e, ga_d = _gap_bands(space, c["fa"], c["aa"], c["pa"])   # gap above the trace, top->bottom
@@ -169,8 +169,8 @@ def _bands(space: Space, kind: str, c: dict[str, np.ndarray]) -> dict[str, np.nd
         above_t, above_e, above_d = ga_t[:, ::-1], ga_e[:, ::-1], ga_d[:, ::-1]
         adh_up = ga_t[:, 2] > 0                # adhesive of the gap above, next to the trace
         adh_dn = gb_t[:, 0] > 0                # adhesive of the gap below, next to the trace
-        fill_e = np.where(adh_up, ga_e[:, 2], np.where(adh_dn, gb_e[:, 0], ga_e[:, 1]))
-        fill_d = np.where(adh_up, ga_d[:, 2], np.where(adh_dn, gb_d[:, 0], ga_d[:, 1]))
+        fill_e = np.where(adh_up, ga_e[:, 2], np.where(adh_dn, gb_e[:, 0], 1.0))   # else air
+        fill_d = np.where(adh_up, ga_d[:, 2], np.where(adh_dn, gb_d[:, 0], 0.0))
     else:
         above_t, above_e, above_d = _cover_bands(space, c["cover"])
         fe, fd = _first_band(above_t, above_e), _first_band(above_t, above_d)
