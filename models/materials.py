@@ -5,7 +5,7 @@ source as free text (a standard, a paper, or "typical, from memory").
 """
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from typing import Literal, get_args
 
 DielectricFamily = Literal[

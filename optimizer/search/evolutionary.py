@@ -25,7 +25,7 @@ from typing import Any
 
 import numpy as np
 
-from strainline.optimizer.search.archive import Archive, SearchResult, hypervolume, nondominated_mask
+from strainline.optimizer.search.archive import Archive, SearchResult, hypervolume
 from strainline.optimizer.search.exhaustive import Evaluator, space_size
 
 #: Scan at most this many candidates per batch while seeding.

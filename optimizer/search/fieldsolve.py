@@ -17,7 +17,6 @@ from concurrent.futures import ProcessPoolExecutor
 from dataclasses import dataclass, field
 from typing import Any
 
-from strainline.optimizer.errors import InputError
 from strainline.optimizer.search.fieldcache import FieldCache, point_key
 
 #: Mesh settings of the line-table solves (base cells across the smallest feature, nested meshes).
@@ -163,15 +162,9 @@ def solve_sections(sections: Sequence[Section], *, workers: int | None = None,
 
 
 def _run_dask(work: list[dict], address: str) -> list[dict]:
-    try:
-        from dask.distributed import Client
-    except ImportError as exc:
-        raise InputError("a Dask cluster needs the optional extra: pip install 'strainline[cluster]'",
-                         "--dask") from exc
-    try:
-        client = Client(address, timeout="10s")
-    except (OSError, TimeoutError, ValueError) as exc:
-        raise InputError(f"cannot reach the Dask scheduler at {address!r} ({exc})", "--dask") from exc
+    from strainline.optimizer.search.cluster import connect
+
+    client = connect(address)
     try:
         return client.gather(client.map(solve_section, work, pure=False))
     finally:

@@ -158,18 +158,10 @@ def run_ranges(evaluate: Callable, sizes: np.ndarray, n_obj: int, start: int, st
 
 
 def _run_dask(evaluate, sizes, n_obj, ranges, address, progress, chunk, align, arch):
-    from strainline.optimizer.errors import InputError
+    from strainline.optimizer.search.cluster import connect
 
-    try:
-        from dask.distributed import Client
-        from dask.distributed import as_completed as dask_as_completed
-    except ImportError as exc:
-        raise InputError("a Dask cluster needs the optional extra: pip install 'strainline[cluster]'",
-                         "--dask") from exc
-    try:
-        client = Client(address, timeout="10s")
-    except (OSError, TimeoutError, ValueError) as exc:
-        raise InputError(f"cannot reach the Dask scheduler at {address!r} ({exc})", "--dask") from exc
+    client = connect(address)
+    from dask.distributed import as_completed as dask_as_completed
     try:
         threads = max(1, sum(client.nthreads().values()))
         ev = client.scatter(evaluate, broadcast=True)
@@ -187,15 +179,7 @@ def _run_dask(evaluate, sizes, n_obj, ranges, address, progress, chunk, align, a
 
 def cluster_threads(address: str) -> int:
     """Worker threads of the Dask cluster at ``address`` (for the time projection)."""
-    from strainline.optimizer.errors import InputError
+    from strainline.optimizer.search.cluster import connect
 
-    try:
-        from dask.distributed import Client
-    except ImportError as exc:
-        raise InputError("a Dask cluster needs the optional extra: pip install 'strainline[cluster]'",
-                         "--dask") from exc
-    try:
-        with Client(address, timeout="10s") as client:
-            return max(1, sum(client.nthreads().values()))
-    except (OSError, TimeoutError, ValueError) as exc:
-        raise InputError(f"cannot reach the Dask scheduler at {address!r} ({exc})", "--dask") from exc
+    with connect(address) as client:
+        return max(1, sum(client.nthreads().values()))

@@ -151,16 +151,10 @@ def _run_local(tasks: list[dict], workers: int, progress: Progress | None) -> It
 
 def _run_dask(tasks: list[dict], address: str, progress: Progress | None,
               timeout_s: float) -> Iterable[dict]:
-    try:
-        from dask.distributed import Client
-        from dask.distributed import as_completed as dask_as_completed
-    except ImportError as exc:
-        raise InputError("a Dask cluster needs the optional extra: pip install 'strainline[cluster]'",
-                         "--dask") from exc
-    try:
-        client = Client(address, timeout=f"{timeout_s}s")
-    except (OSError, TimeoutError, ValueError) as exc:
-        raise InputError(f"cannot reach the Dask scheduler at {address!r} ({exc})", "--dask") from exc
+    from strainline.optimizer.search.cluster import connect
+
+    client = connect(address, timeout_s)
+    from dask.distributed import as_completed as dask_as_completed
     try:
         futures = client.map(check_candidate, tasks, pure=False)
         total = len(tasks)
