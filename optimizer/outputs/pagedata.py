@@ -213,7 +213,8 @@ def field_flag(cand: Mapping[str, Any], front: Mapping[str, Any], catalog: Any |
 
     ``mismatch`` is true when the field-solved impedance at the designed width lies outside target +/-
     tolerance (the closed-form design would miss on its coupon), or the check says the refined width
-    fails; ``error_pct`` is the closed form's error against the field solution.
+    fails; ``error_pct`` is the decided impedance's error (field table or closed form,
+    ``line.impedance_model``) against the independent field solution.
     """
     from strainline.optimizer.outputs.sheetlookup import impedance_tolerance
 

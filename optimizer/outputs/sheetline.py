@@ -47,12 +47,20 @@ def impedance_rows(sheet: Sheet, cand: Mapping[str, Any], front: Mapping[str, An
     ref_names = ", ".join(str(layers[i].get("name")) for i in refs if i != sig) or \
         ("coplanar grounds on the signal layer" if refs == [sig] else "-")
     sheet.add("impedance", "line", "reference planes", ref_names, "")
+    # the figures of the model that decided (front.json line.impedance_model), then the closed form beside
+    field = line.get("impedance_model") == "field"
+    src = "2-D field solution" if field else "closed form"
+    cf = line.get("closed_form")
+    cf_note = ""
+    if field and isinstance(cf, Mapping) and is_num(cf.get("z_ohm_at_width")) and is_num(cf.get("width_um")):
+        cf_note = (f"closed form at this width {cf['z_ohm_at_width']:.2f} ohm; its width for the target "
+                   f"{cf['width_um']:.2f} um (the field solution decided)")
     if pair:
-        sheet.add("impedance", "line", "differential impedance (closed form)", line.get("z_diff_ohm"), "ohm",
-                  "line.z_diff_ohm")
+        sheet.add("impedance", "line", f"differential impedance ({src})", line.get("z_diff_ohm"), "ohm",
+                  "line.z_diff_ohm", cf_note)
     if line.get("z0_ohm") is not None:
-        sheet.add("impedance", "line", "single-line impedance (closed form)" if pair else
-                  "impedance (closed form)", line.get("z0_ohm"), "ohm", "line.z0_ohm")
+        sheet.add("impedance", "line", f"single-line impedance ({src})" if pair else
+                  f"impedance ({src})", line.get("z0_ohm"), "ohm", "line.z0_ohm", "" if pair else cf_note)
     if line.get("eps_eff") is not None:
         sheet.add("impedance", "line", "effective permittivity", line.get("eps_eff"), "", "line.eps_eff")
     geom = line.get("geometry") or {}
@@ -78,7 +86,8 @@ def impedance_rows(sheet: Sheet, cand: Mapping[str, Any], front: Mapping[str, An
               "z_common_ohm": ("field-solved common-mode impedance", "ohm"),
               "eps_eff": ("field-solved effective permittivity", ""),
               "eps_eff_even": ("field-solved even-mode effective permittivity", ""),
-              "closed_form_error_pct": ("closed-form error against the field solution", "%"),
+              "closed_form_error_pct": ("search's impedance against this field solution" if field else
+                                        "closed-form error against the field solution", "%"),
               "error_estimate_pct": ("field-solver error estimate (grid convergence)", "%"),
               "width_um": ("field-refined width for the target", "um"),
               "z_refined_ohm": ("field-solved impedance at the refined width", "ohm"),
@@ -157,8 +166,8 @@ def other_lines(sheet: Sheet, cand: Mapping[str, Any]) -> None:
         name = str(ln.get("name") or f"line {k + 1}")
         for key, lab, unit in (("type", "line type", ""), ("layer_name", "signal layer", ""),
                                ("width_um", "trace width as designed", "um"), ("gap_um", "gap as designed", "um"),
-                               ("target_ohm", "target impedance", "ohm"), ("z0_ohm", "impedance (closed form)", "ohm"),
-                               ("z_diff_ohm", "differential impedance (closed form)", "ohm")):
+                               ("target_ohm", "target impedance", "ohm"), ("z0_ohm", "impedance", "ohm"),
+                               ("z_diff_ohm", "differential impedance", "ohm")):
             if ln.get(key) is not None:
                 sheet.add("lines", name, f"{name}: {lab}", ln[key], unit, f"lines[{k}].{key}")
 

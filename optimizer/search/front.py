@@ -237,7 +237,9 @@ def build_front(problem: Problem, result: SearchResult, catalog: Any, seed: int,
                 "hatched-reference", "warning",
                 "reference plane " + ", ".join(f"L{p + 1} ({100 * cov[p]:.0f} % copper)" for p in hatched)
                 + " is hatched: the impedance shown is the solid-plane value, a lower bound; hatched-plane "
-                "impedance has no closed form and needs coupon calibration or a 3-D field solution",
+                "impedance has no closed form; give the hatch geometry (stack.ground_hatch) so the search solves "
+                "it in 3-D and pays for it, or check it with strainline line --hatch-pitch-um/--hatch-width-um "
+                "and coupons",
                 "lines reference notes section 7 (no published closed form)"))
         if study.bend.region == "unbonded":
             findings.append(_finding(

@@ -372,7 +372,9 @@ function drawLayerTable(c) {
   var fc = l.field_check;
   if (fc && !fc.error) {
     var zf = fc.z_diff_ohm !== undefined && fc.z_diff_ohm !== null ? fc.z_diff_ohm : fc.z0_ohm;
-    parts.push('field check: ' + fmt(zf) + ' ohm at this width (closed form ' +
+    // the figure compared is the one the search decided on: the field table or the closed form
+    var decided = l.impedance_model === 'field' ? 'search field table ' : 'closed form ';
+    parts.push('field check: ' + fmt(zf) + ' ohm at this width (' + decided +
       (fc.closed_form_error_pct >= 0 ? '+' : '') + fmt(fc.closed_form_error_pct, 3) + ' %), refined width ' +
       fmt(fc.width_um) + ' um' + (fc.refined_width_in_range ? '' : ' (outside the width range)'));
   } else if (fc && fc.error) {
@@ -380,7 +382,8 @@ function drawLayerTable(c) {
   }
   var ff = c.field_flag;
   fill('field-flag', ff && ff.mismatch ? [el('b', null, 'Field check disagrees: '), ff.text,
-    typeof ff.error_pct === 'number' ? '; the closed form is ' + fmt(ff.error_pct, 3) + ' % off the field solution' : '',
+    typeof ff.error_pct === 'number' ? '; the ' + (l.impedance_model === 'field' ? "search's impedance" : 'closed form') +
+      ' is ' + fmt(ff.error_pct, 3) + ' % off this field solution' : '',
     '. Use the field-refined width or a coupon before quoting.'] : []);
   document.getElementById('field-flag').style.display = ff && ff.mismatch ? '' : 'none';
   var figs = [];
@@ -440,7 +443,7 @@ col('gap_um', 'gap (um)', function (c) { return c.line.gap_um; });
 col('z0_ohm', 'Z0 (ohm)', function (c) { return c.line.z0_ohm; });
 col('z_diff_ohm', 'Zdiff (ohm)', function (c) { return c.line.z_diff_ohm; });
 col('eps_eff', 'eps eff', function (c) { return c.line.eps_eff; });
-col('field_error_pct', 'closed-form error vs field (%)', function (c) {
+col('field_error_pct', 'impedance vs field check (%)', function (c) {
   return c.line.field_check ? c.line.field_check.closed_form_error_pct : null; });
 col('cycles_to_failure', 'cycles to failure', function (c) { return c.bend.cycles_to_failure; });
 col('radius_to_thickness', 'R / thickness', function (c) { return c.bend.radius_to_thickness; });
