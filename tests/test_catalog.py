@@ -221,6 +221,37 @@ def test_fabrication_capability(cat):
     assert fab.stiffener_thickness_tolerance_m == pytest.approx(0.1e-3)
 
 
+def test_dk_tolerance_of_every_shipped_dielectric(cat):
+    # Every shipped dielectric gives its own Dk tolerance and says where it comes from; the values
+    # sit inside +/-1-10 %, the span of flex and laminate data-sheet Dk tolerances (about +/-0.05 on
+    # filled PTFE to +/-0.3 on adhesives, around Dk 3-4.5; from memory).
+    mats = yaml.safe_load((SHIPPED / "materials.yaml").read_text(encoding="utf-8"))["dielectrics"]
+    for name, entry in mats.items():
+        assert "dk_tolerance_pct" in entry, name
+        assert "Dk tolerance" in entry["source"] and "from memory" in entry["source"], name
+        assert 1.0 <= entry["dk_tolerance_pct"] <= 10.0, name
+        assert cat.dk_tolerance_of(name) == pytest.approx(entry["dk_tolerance_pct"] / 100)
+    fab = yaml.safe_load((SHIPPED / "fabrication.yaml").read_text(encoding="utf-8"))
+    assert cat.fabrication.dk_tolerance_default == pytest.approx(fab["dk_tolerance"]["default_pct"] / 100)
+    assert "from memory" in cat.fabrication.sources["dk_tolerance"]
+
+
+def test_dk_tolerance_falls_back_to_the_fabrication_default(tmp_path):
+    # the format's rule (catalogs/materials.yaml header): a dielectric without dk_tolerance_pct takes
+    # fabrication.yaml dk_tolerance.default_pct; with neither it has none (held exactly)
+    folder = _copy(tmp_path)
+    _edit(folder, "materials.yaml", _drop("dielectrics", "lcp-film", "dk_tolerance_pct"))
+    _edit(folder, "fabrication.yaml", _set("dk_tolerance", "default_pct", 7))
+    got = load_catalog(folder)
+    assert got.dk_tolerance_of("lcp-film") == pytest.approx(0.07)
+    assert got.dk_tolerance_of("polyimide-film") == pytest.approx(0.05)
+    _edit(folder, "fabrication.yaml", _drop("dk_tolerance"))
+    got = load_catalog(folder)
+    assert got.dk_tolerance_of("lcp-film") is None
+    assert got.fabrication.dk_tolerance_default is None
+    assert "dk_tolerance" not in got.to_dict()["fabrication"]
+
+
 def test_total_thickness_tolerance_rule(cat):
     rule = cat.fabrication.total_thickness_tolerance
     # materials.md section 4 (source 10): +/-0.05 mm below 0.3 mm, +/-0.1 mm for 0.3-0.8 mm;
@@ -352,6 +383,14 @@ BAD = [
      "fabrication.yaml: thickness_tolerance.total.bands[1].up_to_um: must be > 800, got 300"),
     ("fabrication.yaml", _drop("impedance_tolerance", "source"),
      "fabrication.yaml: impedance_tolerance.source: required field is missing"),
+    ("materials.yaml", _set("dielectrics", "acrylic-adhesive", "dk_tolerance_pct", 80),
+     "materials.yaml: dielectrics.acrylic-adhesive.dk_tolerance_pct: must be <= 50, got 80"),
+    ("materials.yaml", _set("dielectrics", "lcp-film", "dk_tolerance_pct", -1),
+     "materials.yaml: dielectrics.lcp-film.dk_tolerance_pct: must be >= 0, got -1"),
+    ("fabrication.yaml", _set("dk_tolerance", "default_pct", "five"),
+     "fabrication.yaml: dk_tolerance.default_pct: must be a number, got 'five'"),
+    ("fabrication.yaml", _drop("dk_tolerance", "source"),
+     "fabrication.yaml: dk_tolerance.source: required field is missing"),
 ]
 
 

@@ -113,9 +113,11 @@ def _build(docs: Mapping[str, Any], labels: Mapping[str, str], shown: str, origi
         parse_materials,
     )
 
-    dielectrics, coverlays = parse_materials(docs["materials.yaml"], _File(labels["materials.yaml"]))
+    dielectrics, coverlays, own_dk = parse_materials(docs["materials.yaml"], _File(labels["materials.yaml"]))
     foils, weights = parse_copper(docs["copper.yaml"], _File(labels["copper.yaml"]))
     fabrication = parse_fabrication(docs["fabrication.yaml"], _File(labels["fabrication.yaml"]), tuple(weights))
+    default = fabrication.dk_tolerance_default
+    dk_tol = {k: own_dk.get(k, default) for k in dielectrics if k in own_dk or default is not None}
     return Catalog(
         dielectrics=MappingProxyType(dielectrics),
         coverlays=MappingProxyType(coverlays),
@@ -124,6 +126,7 @@ def _build(docs: Mapping[str, Any], labels: Mapping[str, str], shown: str, origi
         fabrication=fabrication,
         folder=shown,
         origin=MappingProxyType(dict(origin)),
+        dk_tolerance=MappingProxyType(dk_tol),
     )
 
 

@@ -139,6 +139,8 @@ class DielectricEntry(Base):
     thickness_tolerance_pct: K.num(0, 100, hi_open=True)
     source: Text
     min_bend_radius_mm: K.num(0, 10000, lo_open=True) | None = None
+    #: +/- relative Dk tolerance, pct (absent: fabrication.yaml ``dk_tolerance.default_pct``).
+    dk_tolerance_pct: K.num(0, 50) | None = None
 
 
 class CoverlayEntry(Base):
@@ -222,11 +224,17 @@ class ThicknessTolerance(Base):
     total: TotalRule
 
 
+class DkTolerance(Base):
+    source: Text
+    default_pct: K.num(0, 50)
+
+
 class FabricationFile(Base):
     min_feature: MinFeature
     width_tolerance: WidthTolerance
     impedance_tolerance: ImpedanceTolerance
     thickness_tolerance: ThicknessTolerance
+    dk_tolerance: DkTolerance | None = None
     about: Any = None
 
 
@@ -259,9 +267,12 @@ class _File:
             raise self.err(path, str(exc)) from None
 
 
-def parse_materials(doc: Any, f: _File) -> tuple[dict[str, Dielectric], dict[str, Coverlay]]:
+def parse_materials(doc: Any, f: _File
+                    ) -> tuple[dict[str, Dielectric], dict[str, Coverlay], dict[str, float]]:
+    """Dielectrics, coverlays and the Dk tolerances the dielectrics give themselves (fractions)."""
     m = f.validate(MaterialsFile, doc)
     dielectrics: dict[str, Dielectric] = {}
+    dk_tol = {key: e.dk_tolerance_pct / 100 for key, e in m.dielectrics.items() if e.dk_tolerance_pct is not None}
     for key, e in m.dielectrics.items():
         dielectrics[key] = f.build(
             f"dielectrics.{key}", Dielectric, name=key, family=e.family, description=e.description,
@@ -294,7 +305,7 @@ def parse_materials(doc: Any, f: _File) -> tuple[dict[str, Dielectric], dict[str
             builds.append((pair[0] * UM, pair[1] * UM))
         coverlays[key] = f.build(p, Coverlay, name=key, film=parts["film"], adhesive=parts["adhesive"],
                                  builds_m=tuple(builds), description=e.description, source=e.source)
-    return dielectrics, coverlays
+    return dielectrics, coverlays, dk_tol
 
 
 def parse_copper(doc: Any, f: _File) -> tuple[dict[str, CopperFoil], dict[str, FoilWeight]]:
@@ -361,6 +372,8 @@ def parse_fabrication(doc: Any, f: _File, weight_keys: tuple[str, ...]) -> Fabri
     sources = {"min_feature": m.min_feature.source, "width_tolerance": m.width_tolerance.source,
                "impedance_tolerance": m.impedance_tolerance.source, "thickness_tolerance": tt.source,
                "thickness_tolerance.total": rule.source}
+    if m.dk_tolerance is not None:
+        sources["dk_tolerance"] = m.dk_tolerance.source
     return Fabrication(
         min_trace_m=MappingProxyType({w: r.trace_um * UM for w, r in m.min_feature.by_weight.items()}),
         min_space_m=MappingProxyType({w: r.space_um * UM for w, r in m.min_feature.by_weight.items()}),
@@ -371,4 +384,5 @@ def parse_fabrication(doc: Any, f: _File, weight_keys: tuple[str, ...]) -> Fabri
         stiffener_thickness_tolerance_m=tt.stiffener_um * UM,
         sources=MappingProxyType(sources),
         source=" | ".join(f"{k}: {v}" for k, v in sources.items()),
+        dk_tolerance_default=None if m.dk_tolerance is None else m.dk_tolerance.default_pct / 100,
     )

@@ -95,6 +95,9 @@ class Fabrication:
         Source of each section.
     source : str
         All section sources in one text.
+    dk_tolerance_default : float or None
+        Relative +/- Dk tolerance of a dielectric that gives none of its own
+        (``fabrication.yaml: dk_tolerance.default_pct``); None when the file has no such section.
     """
 
     min_trace_m: Mapping[str, float]
@@ -106,6 +109,7 @@ class Fabrication:
     stiffener_thickness_tolerance_m: float
     sources: Mapping[str, str]
     source: str
+    dk_tolerance_default: float | None = None
 
 
 @dataclass(frozen=True)
@@ -125,6 +129,13 @@ class Catalog:
     #: Where each file's entries came from: "built-in", "replaced" (the user file alone) or
     #: "added" (the user file's entries added to the built-in ones; same names replace them).
     origin: Mapping[str, str] = field(default_factory=dict, compare=False)
+    #: Relative +/- Dk tolerance of each dielectric: its own ``dk_tolerance_pct``, else the
+    #: fabrication default; a dielectric with neither is absent (see :meth:`dk_tolerance_of`).
+    dk_tolerance: Mapping[str, float] = field(default_factory=dict)
+
+    def dk_tolerance_of(self, name: str) -> float | None:
+        """Relative +/- Dk tolerance of the dielectric ``name`` (None: the catalog gives none)."""
+        return self.dk_tolerance.get(name)
 
     def dielectric(self, name: str, field: str | None = None) -> Dielectric:
         """The dielectric ``name``; ``field`` is the caller's field path for the error."""
@@ -163,6 +174,7 @@ class Catalog:
                     "thickness_tolerance_pct": _r(d.thickness_tolerance * 100),
                     "source": d.source,
                     **({} if d.min_bend_radius_m is None else {"min_bend_radius_mm": _r(d.min_bend_radius_m * 1e3)}),
+                    **({} if k not in self.dk_tolerance else {"dk_tolerance_pct": _r(self.dk_tolerance[k] * 100)}),
                 }
                 for k, d in self.dielectrics.items()
             },
@@ -225,6 +237,8 @@ class Catalog:
                         "above_pct": _r(rule.above_relative * 100),
                     },
                 },
+                **({} if fab.dk_tolerance_default is None else {"dk_tolerance": {
+                    "source": fab.sources["dk_tolerance"], "default_pct": _r(fab.dk_tolerance_default * 100)}}),
             },
         }
 
