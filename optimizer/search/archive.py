@@ -7,12 +7,26 @@
   a front does not depend on how the work was split.
 * :func:`hypervolume` -- exact hypervolume in normalized objective space (pymoo's ``HV``
   indicator, exact for the dimensions we use); :func:`additive_epsilon`.
+
+The archive also keeps the :data:`NEAR_K` nearest infeasible candidates (the "nothing feasible"
+diagnosis, :mod:`.infeasible`): distinct designs ranked by total violation, the sum of the
+positive constraint values, ties broken by the decision vector read from its last variable to
+its first (for an enumeration this is the candidate index order: the first variable runs fastest
+in the mixed-radix index), then by index. The k best of a union are the k best of the k best of
+its parts, so merged archives keep the same list, bit for bit, however the work was split.
 """
 from __future__ import annotations
 
+from collections.abc import Callable
 from dataclasses import dataclass, field
 
 import numpy as np
+
+#: How many nearest infeasible candidates an archive keeps (rank 1 is ``near_X``).
+NEAR_K = 5
+#: Candidates whose violation is only a lower bound (pruned) are refined in batches of this size,
+#: doubling, in increasing order of the bound.
+_REFINE_BATCH = 64
 
 
 # ---------------------------------------------------------------------------------------------
@@ -103,8 +117,10 @@ class Archive:
     front. Every added row has an integer index: the candidate index of an enumeration (``start``
     of :meth:`add`), else its position in the stream. Of equal objective vectors the archive
     keeps the smallest index, so archives of disjoint ranges merged with :meth:`merge` equal the
-    archive of one pass over their union, bit for bit. Infeasible points never enter; the archive
-    tracks the least-violating one for the "nothing feasible" report.
+    archive of one pass over their union, bit for bit. Infeasible points never enter the front; the
+    archive keeps the :data:`NEAR_K` least-violating distinct ones (``nearest_X``, ``nearest_G``,
+    ``nearest_cv``, ``nearest_index``, best first; ``near_X``, ``near_G``, ``near_cv``,
+    ``near_index`` are rank 1) for the "nothing feasible" report.
 
     Batches given to :meth:`add` must come in increasing index order (a stream or consecutive
     ranges); archives of any ranges combine with :meth:`merge`.
@@ -122,6 +138,11 @@ class Archive:
     near_G: np.ndarray | None = None
     near_index: int = -1
     violated: np.ndarray | None = None     # per constraint: how many candidates violate it
+    near_k: int = NEAR_K
+    nearest_X: np.ndarray = field(init=False)
+    nearest_G: np.ndarray | None = None    # (m, n_con) once a constraint row was seen
+    nearest_cv: np.ndarray = field(init=False)
+    nearest_index: np.ndarray = field(init=False)
     #: Size of the uniform sample of feasible objective vectors kept for the report's background
     #: (bottom-k sampling on hashed indices: uniform, reproducible, and independent of the split).
     sample_size: int = 1000
@@ -134,6 +155,9 @@ class Archive:
         self.index = np.empty(0, np.int64)
         self.sample_F = np.empty((0, self.n_obj))
         self._sample_keys = np.empty(0, np.uint64)
+        self.nearest_X = np.empty((0, self.n_var), np.int64)
+        self.nearest_cv = np.empty(0)
+        self.nearest_index = np.empty(0, np.int64)
 
     def _sample(self, Fb: np.ndarray, keys: np.ndarray) -> None:
         keys = np.concatenate([self._sample_keys, keys])
@@ -145,11 +169,16 @@ class Archive:
         self._sample_keys, self.sample_F = keys[order], Fs[order]
 
     def add(self, X: np.ndarray, F: np.ndarray, G: np.ndarray, start: int | None = None,
-            index: np.ndarray | None = None) -> int:
+            index: np.ndarray | None = None, refine: Callable | None = None) -> int:
         """Merge a batch; return how many archive points changed (0 = no improvement).
 
         Row ``i`` has index ``start + i`` (default: the stream position, ``seen + i``), or
         ``index[i]`` (increasing, above every index added before).
+
+        ``refine(x) -> (F, G)`` (optional) evaluates rows in full: an infeasible row with a
+        non-finite objective is taken as pruned (its ``G`` a lower bound of the full one, e.g. the
+        mechanical columns left at 0, :meth:`Problem.evaluate`) and is re-evaluated when it could
+        enter the nearest list, so the list ranks full violations whatever the batches pruned.
         """
         X = np.asarray(X, np.int64)
         F = np.asarray(F, float)
@@ -166,15 +195,9 @@ class Archive:
             viol = np.array([np.count_nonzero(G[:, k] > 0) for k in range(G.shape[1])], dtype=np.int64)
             self.violated = viol if self.violated is None else self.violated + viol
             if not feas.all():
-                # total violation; a feasible row has every G <= 0, so its sum is 0 before the inf
-                cv = np.maximum(G[:, 0], 0.0)
-                for k in range(1, G.shape[1]):
-                    cv += np.maximum(G[:, k], 0.0)
-                cv = np.where(feas, np.inf, cv)
-                k = int(np.argmin(cv))                  # the first of equal violations
-                if cv[k] < self.near_cv:
-                    self.near_cv, self.near_X, self.near_G = float(cv[k]), X[k].copy(), G[k].copy()
-                    self.near_index = start + k if index is None else int(index[k])
+                idx = np.arange(start, start + len(X), dtype=np.int64) if index is None else \
+                    np.asarray(index, np.int64)
+                self._near_batch(X, F, G, np.where(feas, np.inf, total_violation(G)), idx, refine)
         else:
             feas = np.all(np.isfinite(F), axis=1)
         rows = np.flatnonzero(feas)
@@ -206,21 +229,98 @@ class Archive:
         self.F, self.X, self.index = Fc[keep], Xc[keep], Ic[keep]
         return changed
 
+    # ----------------------------------------------------------------------------- nearest list
+    def _near_threshold(self) -> float:
+        """Violation of the k-th kept candidate (inf while fewer are kept): a row above it cannot enter."""
+        return float(self.nearest_cv[-1]) if len(self.nearest_cv) >= self.near_k else np.inf
+
+    def _near_batch(self, X: np.ndarray, F: np.ndarray, G: np.ndarray, cv: np.ndarray, idx: np.ndarray,
+                    refine: Callable | None) -> None:
+        """Offer the infeasible rows of a batch (``cv`` finite) to the nearest list."""
+        if self.near_k <= 0:
+            return
+        cand = np.flatnonzero(cv <= self._near_threshold())      # drops inf (feasible) and nan
+        if not len(cand):
+            return
+        part = np.zeros(len(cand), bool)
+        if refine is not None:
+            for k in range(F.shape[1]):
+                part |= ~np.isfinite(F[cand, k])
+        full = cand[~part]
+        if len(full):
+            # rows past the k-th smallest violation cannot enter, unless repeats of one design
+            # leave fewer than k distinct designs at or below it
+            m = self.near_k
+            while m < len(full):
+                v = np.partition(cv[full], m - 1)[m - 1]
+                sel = full[cv[full] <= v]
+                if len(np.unique(X[sel], axis=0)) >= self.near_k:
+                    full = sel
+                    break
+                m *= 2
+            self._near_absorb(X[full], G[full], cv[full], idx[full])
+        low = cand[part]
+        if len(low):
+            # a pruned row's violation is a lower bound: refine in increasing order of the bound
+            # until the bound passes the k-th full violation kept
+            low = low[np.argsort(cv[low], kind="stable")]
+            pos, step = 0, _REFINE_BATCH
+            while pos < len(low) and cv[low[pos]] <= self._near_threshold():
+                rows = low[pos:pos + step]
+                rows = rows[cv[rows] <= self._near_threshold()]
+                Fr, Gr = refine(X[rows])
+                Fr, Gr = np.asarray(Fr, float), np.asarray(Gr, float)
+                ok = np.all(Gr <= 0, axis=1) & np.all(np.isfinite(Fr), axis=1)
+                cvr = np.where(ok, np.inf, total_violation(Gr))
+                keep = np.flatnonzero(np.isfinite(cvr))
+                self._near_absorb(X[rows[keep]], Gr[keep], cvr[keep], idx[rows[keep]])
+                pos += len(low[pos:pos + step])
+                step *= 2
+
+    def _near_absorb(self, Xc: np.ndarray, Gc: np.ndarray, cvc: np.ndarray, Ic: np.ndarray) -> None:
+        """Keep the ``near_k`` best distinct designs of the kept list and these rows."""
+        if not len(cvc):
+            return
+        X = np.concatenate([self.nearest_X, np.asarray(Xc, np.int64)])
+        G = np.asarray(Gc, float) if self.nearest_G is None else np.concatenate([self.nearest_G, Gc])
+        cv = np.concatenate([self.nearest_cv, np.asarray(cvc, float)])
+        ix = np.concatenate([self.nearest_index, np.asarray(Ic, np.int64)])
+        # violation first, then x from its last variable to its first (= index order), then index
+        order = np.lexsort((ix,) + tuple(X.T) + (cv,))
+        X, G, cv, ix = X[order], G[order], cv[order], ix[order]
+        _, first = np.unique(X, axis=0, return_index=True)       # first (best) row of each design
+        keep = np.sort(first)[: self.near_k]
+        self.nearest_X, self.nearest_G = X[keep], G[keep]
+        self.nearest_cv, self.nearest_index = cv[keep], ix[keep]
+        self.near_cv, self.near_X, self.near_G = float(cv[keep[0]]), X[keep[0]].copy(), G[keep[0]].copy()
+        self.near_index = int(ix[keep[0]])
+
     def merge(self, other: "Archive") -> "Archive":
         """Absorb the archive of a disjoint index range; the result does not depend on the order."""
         self.seen += other.seen
         self.feasible += other.feasible
         if other.violated is not None:
             self.violated = other.violated.copy() if self.violated is None else self.violated + other.violated
-        mine = (self.near_cv, self.near_index if self.near_X is not None else 2**63)
-        if other.near_X is not None and (other.near_cv, other.near_index) < mine:
-            self.near_cv, self.near_X, self.near_G = other.near_cv, other.near_X, other.near_G
-            self.near_index = other.near_index
+        if other.nearest_G is not None and len(other.nearest_cv):
+            self._near_absorb(other.nearest_X, other.nearest_G, other.nearest_cv, other.nearest_index)
         if self.sample_size and len(other.sample_F):
             self._sample(other.sample_F, other._sample_keys)
         if len(other.F):
             self._absorb(other.F, other.X, other.index)
         return self
+
+
+def total_violation(G: np.ndarray) -> np.ndarray:
+    """Total normalized violation of each row: the sum of its positive constraint values.
+
+    Summed column by column, left to right (the order every caller uses, so equal rows give
+    equal sums bit for bit). A nan constraint value gives nan.
+    """
+    G = np.asarray(G, float)
+    cv = np.maximum(G[:, 0], 0.0)
+    for k in range(1, G.shape[1]):
+        cv = cv + np.maximum(G[:, k], 0.0)
+    return cv
 
 
 def _dominated_by(A: np.ndarray, P: np.ndarray) -> np.ndarray:

@@ -79,7 +79,9 @@ def exhaustive_range(evaluate: Evaluator, sizes: np.ndarray, n_obj: int, start: 
     Parameters
     ----------
     evaluate : callable
-        ``evaluate(x) -> (F, G)`` for integer vectors (n, n_var).
+        ``evaluate(x) -> (F, G)`` for integer vectors (n, n_var). If it has an ``exact(x) -> (F, G)``
+        method (a pruning evaluator's full evaluation, :class:`~.parallel.ProblemEvaluator`), the
+        archive refines pruned rows that could be among the nearest infeasible candidates with it.
     sizes : array of int
         Number of values of each variable (first variable fastest in the index).
     n_obj : int
@@ -101,7 +103,7 @@ def exhaustive_range(evaluate: Evaluator, sizes: np.ndarray, n_obj: int, start: 
         b = min(stop, (a // step + 1) * step)       # chunks on the pattern's grid
         x = digits(a, b)
         F, G = evaluate(x)
-        arch.add(x, F, G, start=a)
+        arch.add(x, F, G, start=a, refine=getattr(evaluate, "exact", None))
         if progress is not None:
             progress(b - a)
         a = b
@@ -136,7 +138,7 @@ def exhaustive_pieces(evaluate: Evaluator, sizes: np.ndarray, n_obj: int, pieces
             idx = np.concatenate(buf)
             x = _digits(idx, sizes)
             F, G = evaluate(x)
-            arch.add(x, F, G, index=idx)
+            arch.add(x, F, G, index=idx, refine=getattr(evaluate, "exact", None))
             if progress is not None:
                 progress(held)
         buf, held = [], 0

@@ -50,6 +50,12 @@ class ProblemEvaluator:
         e = self.problem.evaluate(x, prune=self.prune)
         return e.F, e.G
 
+    def exact(self, x: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """``(F, G)`` without pruning: the enumeration refines pruned rows that could be among the
+        nearest infeasible candidates with it (:meth:`Archive.add` ``refine``)."""
+        e = self.problem.evaluate(x, prune=False)
+        return e.F, e.G
+
 
 def default_workers() -> int:
     """Cores this process may run on."""
