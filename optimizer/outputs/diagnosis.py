@@ -53,7 +53,8 @@ def diagnosis(front: Mapping[str, Any]) -> dict[str, Any] | None:
     dict or None
         ``headline``; ``rows`` (one per constraint: name, count, share of the evaluated candidates in
         percent, limit, what the nearest candidate reached, by how much it misses); ``relax`` (sentences,
-        most useful first); ``nearest`` (the nearest candidate's choices with 1-based layer names).
+        most useful first); ``nearest`` (the nearest candidate's choices with 1-based layer names);
+        ``candidates`` (up to five nearest candidates, :func:`nearest_candidates`).
     """
     if front.get("candidates"):
         return None
@@ -100,6 +101,7 @@ def diagnosis(front: Mapping[str, Any]) -> dict[str, Any] | None:
         if HINTS.get(r["key"]):
             relax.append(f"For the {r['name']}: {HINTS[r['key']]}.")
     choices = inf.get("nearest_choices") if isinstance(inf.get("nearest_choices"), Mapping) else {}
+    nearest = nearest_candidates(front)
     return {
         "headline": "No stackup met every constraint" + (
             f" ({fmt(evaluated)} candidates evaluated)." if is_num(evaluated) else "."),
@@ -107,7 +109,44 @@ def diagnosis(front: Mapping[str, Any]) -> dict[str, Any] | None:
         "rows": rows,
         "relax": relax,
         "nearest": [readable_choice(k, v) for k, v in choices.items()],
+        "candidates": nearest,
     }
 
 
-__all__ = ["diagnosis", "HINTS"]
+def _miss(m: Mapping[str, Any]) -> dict[str, Any]:
+    """One constraint a nearest candidate misses, as the panel shows it (limit, reached, by how much)."""
+    name = str(m.get("constraint") or "")
+    unit = str(m.get("unit") or "")
+    bound = str(m.get("bound") or "")
+    return {"key": name, "name": str(m.get("text") or readable(name)),
+            "limit": f"{bound} {_amount(m.get('limit'), unit)}".strip() if is_num(m.get("limit")) else "-",
+            "reached": _amount(m.get("achieved"), unit),
+            "over": ("outside its range" if name == "equation_range" else f"{fmt(100.0 * m['excess'], 3)} %")
+            if is_num(m.get("excess")) else "-"}
+
+
+def nearest_candidates(front: Mapping[str, Any]) -> list[dict[str, Any]]:
+    """The nearest candidates of a run with no feasible one (``search.infeasible.nearest_candidates``), best
+    first: rank, total violation, choices with 1-based names, layers (top to bottom), total thickness and
+    the constraints each misses. An empty list when front.json has none (or has feasible candidates)."""
+    if front.get("candidates"):
+        return []
+    search = front.get("search") if isinstance(front.get("search"), Mapping) else {}
+    inf = search.get("infeasible") if isinstance(search.get("infeasible"), Mapping) else {}
+    out = []
+    for k, n in enumerate(c for c in inf.get("nearest_candidates") or [] if isinstance(c, Mapping)):
+        layers = [dict(lay) for lay in n.get("layers") or [] if isinstance(lay, Mapping)]
+        total = n.get("total_thickness_um")
+        if not is_num(total):
+            total = sum(float(lay.get("thickness_um") or 0.0) for lay in layers if is_num(lay.get("thickness_um")))
+        choices = n.get("choices") if isinstance(n.get("choices"), Mapping) else {}
+        rank = n.get("rank") if is_num(n.get("rank")) else k + 1
+        out.append({"rank": rank, "id": f"nearest {fmt(rank)}",
+                    "total_violation": fmt(n["total_violation"], 3) if is_num(n.get("total_violation")) else "-",
+                    "choices": [readable_choice(str(c), v) for c, v in choices.items()],
+                    "layers": layers, "total_thickness_um": total,
+                    "misses": [_miss(m) for m in n.get("misses") or [] if isinstance(m, Mapping)]})
+    return out
+
+
+__all__ = ["diagnosis", "nearest_candidates", "HINTS"]

@@ -8,6 +8,7 @@ from pathlib import Path
 from typing import Any
 
 from strainline.optimizer.outputs.fileio import write_atomic
+from strainline.optimizer.outputs.linesview import csv_columns
 from strainline.optimizer.search.front import CAUTION
 
 
@@ -26,7 +27,8 @@ def _flatten(prefix: str, value: Any, out: dict[str, Any]) -> None:
 
 
 def flat_rows(front: dict[str, Any]) -> list[dict[str, Any]]:
-    """One flat dict per candidate (dotted column names; layers numbered top to bottom from 1)."""
+    """One flat dict per candidate (dotted column names; layers and bend zones numbered top to bottom from 1,
+    ``bends.<n>.*``; each controlled line by name, ``lines.<name>.<field>``, see :func:`linesview.csv_columns`)."""
     rows = []
     for c in front["candidates"]:
         r: dict[str, Any] = {}
@@ -39,7 +41,10 @@ def flat_rows(front: dict[str, Any]) -> list[dict[str, Any]]:
                 c2[key] = {k: x for k, x in v.items() if k != "profile"}
             elif isinstance(v, list):
                 c2[key] = [{k: x for k, x in b.items() if k != "profile"} if isinstance(b, dict) else b for b in v]
+        # every line gets one compact set of columns by name (lines.<name>.<field>); line.* keeps lines[0] in full
+        c2.pop("lines", None)
         _flatten("", c2, r)
+        r.update(csv_columns(c))
         rows.append(r)
     return rows
 

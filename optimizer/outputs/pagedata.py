@@ -19,6 +19,8 @@ from strainline.optimizer.outputs.formatting import (
     study_name,
     study_value,
 )
+from strainline.optimizer.outputs.diagnosis import nearest_candidates
+from strainline.optimizer.outputs.linesview import line_summary, lines_of
 from strainline.optimizer.outputs.stack import (
     FAMILY_COLOURS,
     family_of,
@@ -177,7 +179,7 @@ def page_data(front: Mapping[str, Any], catalog: Any | None) -> dict[str, Any]:
             "findings": findings_of(c),
             "field_flag": field_flag(c, front, catalog),
             "bends": [b for b in c.get("bends") or [] if isinstance(b, Mapping)],
-            "lines": [ln for ln in c.get("lines") or [] if isinstance(ln, Mapping)],
+            "lines": line_views(c, front, catalog),
         })
     objectives = [k for k in cands[0]["objectives"] if all(is_num(c["objectives"].get(k)) for c in cands)] if cands else []
     search = front.get("search") if isinstance(front.get("search"), Mapping) else {}
@@ -201,8 +203,23 @@ def page_data(front: Mapping[str, Any], catalog: Any | None) -> dict[str, Any]:
         "strain_limit_pct": strain_limit_pct(front),
         "strain_limit_basis": limit_basis,
         "infeasible": _infeasible_message(front),
+        "nearest": [dict(n, layers=[dict(lay, bottom_um=b, top_um=t, family=family_of(lay, catalog),
+                                         fill_family=fill_family(lay, catalog))
+                                    for lay, (b, t) in zip(n["layers"], layer_heights(n["layers"]))])
+                    for n in nearest_candidates(front)],
         "colours": FAMILY_COLOURS,
     }
+
+
+def line_views(cand: Mapping[str, Any], front: Mapping[str, Any], catalog: Any | None) -> list[dict[str, Any]]:
+    """Every line of a candidate as the report shows it (:func:`linesview.line_summary`), with the index of
+    the copper layer carrying it and its drawing geometry (type, width, gap)."""
+    out = []
+    for k, ln in enumerate(lines_of(cand)):
+        v = line_summary(ln, k, front, catalog)
+        v["signal"] = signal_index({"line": ln, "layers": cand.get("layers") or []})
+        out.append(v)
+    return out
 
 
 
@@ -282,4 +299,4 @@ def _readable_keys(value: Any) -> Any:
     return value
 
 
-__all__ = ["page_data", "decision_table", "strain_limit_pct", "strain_limits", "kv_tree", "search_summary"]
+__all__ = ["page_data", "line_views", "decision_table", "strain_limit_pct", "strain_limits", "kv_tree", "search_summary"]

@@ -64,6 +64,9 @@ def bend_rows(sheet: Sheet, cand: Mapping[str, Any], front: Mapping[str, Any]) -
                   "Engelmaier's foil fatigue equation (IPC-TM-650 2.4.2.1); order of magnitude only")
     f = (cand.get("line") or {}).get("frequency_ghz") or study_value(front, "line", "frequency_ghz")
     at = f" at {fmt(f)} GHz" if is_num(f) else ""
+    if len([ln for ln in cand.get("lines") or [] if isinstance(ln, Mapping)]) > 1:   # the objective reads one line
+        loss_line = study_value(front, "loss_line")
+        at = f" of line {loss_line}" if loss_line else " of the worst line"
     named = {"loss_db_per_m": ("line loss, conductor + dielectric (estimate)" + at, "dB/m"),
              "cycles": ("copper cycles to failure (objective)", "cycles")}
     for ok, ov in obj.items():
@@ -73,19 +76,35 @@ def bend_rows(sheet: Sheet, cand: Mapping[str, Any], front: Mapping[str, Any]) -
 
 
 
+#: A bend zone's rows on the sheet: front.json key, quantity, unit.
+ZONE_FIELDS = (("inner_radius_mm", "inner bend radius", "mm"), ("inside", "face on the inside of the bend", ""),
+               ("use", "use (state the IPC-6013 flex use on the drawing)", ""),
+               ("required_cycles", "flex cycles required", "cycles"), ("motion", "motion", ""),
+               ("region", "bend region", ""), ("neutral_axis_um", "neutral axis above the bottom face", "um"),
+               ("radius_to_thickness", "inner radius / total thickness", ""),
+               ("min_radius_mm", "least inner radius for the strain limits (estimate)", "mm"),
+               ("peak_copper_strain_pct", "peak copper strain (estimate)", "%"),
+               ("signal_copper_strain_pct", "signal copper strain (estimate)", "%"),
+               ("cycles_to_failure", "copper cycles to failure (Engelmaier estimate)", "cycles"))
+
+
 def zone_rows(sheet: Sheet, cand: Mapping[str, Any]) -> None:
-    """One group of bend rows per bend zone when the candidate has several (``bends`` in front.json)."""
+    """A bend block (section ``zone``, item = the zone's name) for every bend zone when the candidate has
+    several (``bends`` in front.json): radius, inside face, use, cycles, motion, region, neutral axis, strain
+    and life of that zone."""
     bends = [b for b in cand.get("bends") or [] if isinstance(b, Mapping)]
     if len(bends) < 2:
         return
     for z, b in enumerate(bends):
         name = str(b.get("name") or f"zone {z + 1}")
-        for k, lab, unit in (("inner_radius_mm", "inner bend radius", "mm"), ("use", "use", ""),
-                             ("required_cycles", "flex cycles required", "cycles"),
-                             ("peak_copper_strain_pct", "peak copper strain (estimate)", "%"),
-                             ("cycles_to_failure", "copper cycles to failure (Engelmaier estimate)", "cycles")):
-            if b.get(k) is not None:
-                sheet.add("bend", name, f"{name}: {lab}", b[k], unit, f"bends[{z}].{k}")
+        for k, lab, unit in ZONE_FIELDS:
+            v = b.get(k)
+            if isinstance(v, list):       # unbonded: one neutral axis per leaf, top to bottom
+                sheet.add("zone", name, "neutral axis of each leaf above the bottom face",
+                          "; ".join(fmt(x, 5) for x in v), unit, "", "one per bonded leaf, top to bottom")
+            elif v is not None:
+                sheet.add("zone", name, lab, v, unit, f"bends[{z}].{k}",
+                          _USE_TEXT.get(str(v), "") if k == "use" else "")
 
 
 def drawing_rows(sheet: Sheet, cand: Mapping[str, Any], front: Mapping[str, Any]) -> None:
@@ -150,4 +169,4 @@ def drawing_rows(sheet: Sheet, cand: Mapping[str, Any], front: Mapping[str, Any]
                   "(exact for a square grid); state pitch, line width and angle")
 
 
-__all__ = ["bend_rows", "zone_rows", "drawing_rows", "TO_FILL"]
+__all__ = ["bend_rows", "zone_rows", "drawing_rows", "TO_FILL", "ZONE_FIELDS"]

@@ -16,6 +16,7 @@ from typing import Any
 
 from strainline.optimizer.outputs.formatting import cautions, figure, findings_of, fmt, study_name, study_value
 from strainline.optimizer.outputs.sheetbend import bend_rows, drawing_rows, zone_rows
+from strainline.optimizer.outputs.linesview import line_name
 from strainline.optimizer.outputs.sheetline import impedance_rows, other_lines
 from strainline.optimizer.outputs.sheetlookup import (
     bonded_build,
@@ -139,7 +140,9 @@ def build_sheet(cand: Mapping[str, Any], front: Mapping[str, Any], catalog: Any 
     tols, foils = _stackup(sheet, cand, catalog, sig, refs)
     _totals(sheet, cand, catalog, tols)
     impedance_rows(sheet, cand, front, catalog, sig, refs)
-    other_lines(sheet, cand)
+    other_lines(sheet, cand, front, catalog)
+    if len([ln for ln in cand.get("lines") or [] if isinstance(ln, Mapping)]) > 1:
+        sheet.first_line = line_name(cand["lines"][0], 0)
     bend_rows(sheet, cand, front)
     zone_rows(sheet, cand)
     drawing_rows(sheet, cand, front)

@@ -13,6 +13,7 @@ from strainline.optimizer.outputs.sheetlookup import (
     weight_of,
     width_tolerance,
 )
+from strainline.optimizer.outputs.linesview import insertion_loss, line_name, study_line, yield_of
 from strainline.optimizer.outputs.sheetrows import Sheet, derived
 
 #: The test method named on every sheet for the impedance coupon.
@@ -39,10 +40,13 @@ def impedance_rows(sheet: Sheet, cand: Mapping[str, Any], front: Mapping[str, An
     target = line.get("target_ohm")
     tkey = "line.target_ohm"
     if target is None:
-        target, tkey = study_value(front, "line", "target_ohm"), ""
+        target, tkey = study_line(front, 0, line.get("name")).get("target_ohm"), ""
     sheet.add("impedance", "line", "target differential impedance" if pair else "target impedance",
               target, "ohm", tkey, "" if tkey else "from the study (line.target_ohm)")
-    tol, tolkey, tolnote = impedance_tolerance(front, line, catalog)
+    entry = study_line(front, 0, line.get("name"))
+    where = "lines[0]" if isinstance(study_value(front, "lines"), list) else "line"
+    tol, tolkey, tolnote = impedance_tolerance(front, line, catalog, entry, where)
+    tolkey = tolkey.replace(f"{where}.", "line.")      # a figure of front.json: candidate.line is lines[0]
     sheet.add("impedance", "line", "impedance tolerance (+/-)", tol, "%", tolkey, tolnote)
     ref_names = ", ".join(str(layers[i].get("name")) for i in refs if i != sig) or \
         ("coplanar grounds on the signal layer" if refs == [sig] else "-")
@@ -136,7 +140,7 @@ def _etch_and_loss(sheet: Sheet, line: Mapping[str, Any], layers: list[Mapping[s
                   f"{fmt(tr)} / {fmt(sp)}", "um", "", "catalog fabrication.min_feature")
     f = line.get("frequency_ghz")
     if not is_num(f):
-        f = study_value(front, "line", "frequency_ghz")
+        f = study_line(front, 0, line.get("name")).get("frequency_ghz")
     at = f" at {fmt(f)} GHz" if is_num(f) else " (frequency not stated)"
     if is_num(line.get("loss_db_per_m")):
         split = [f"{lab} {fmt(line[k])} dB/m" for k, lab in (("conductor_loss_db_per_m", "conductor"),
@@ -144,12 +148,7 @@ def _etch_and_loss(sheet: Sheet, line: Mapping[str, Any], layers: list[Mapping[s
                  if is_num(line.get(k))]
         sheet.add("impedance", "loss", "line loss" + at + " (estimate)", line["loss_db_per_m"], "dB/m",
                   "line.loss_db_per_m", " + ".join(split))
-    yld = line.get("impedance_yield")
-    if isinstance(yld, Mapping) and is_num(yld.get("yield_pct")):
-        sheet.add("impedance", "yield", "share of boards inside the impedance tolerance (estimate)",
-                  yld["yield_pct"], "%", "line.impedance_yield.yield_pct",
-                  "quasi-Monte Carlo over the catalog's fabrication tolerances" +
-                  (f"; largest share of the variance: {yld['dominant']}" if yld.get("dominant") else ""))
+    _line_figures(sheet, "impedance", "loss", line, "line", "", front, 0)
     sheet.add("impedance", "coupon", "impedance test coupon",
               "one per panel: this line on the same layer, width, gap and reference planes, "
               "in the same material build", "", "", "IPC-6013 acceptance by coupon; details agreed with the fabricator")
@@ -157,19 +156,79 @@ def _etch_and_loss(sheet: Sheet, line: Mapping[str, Any], layers: list[Mapping[s
               "IPC-TM-650 2.5.5.7, characteristic impedance of lines on printed boards by TDR")
 
 
-def other_lines(sheet: Sheet, cand: Mapping[str, Any]) -> None:
-    """Rows for every controlled line when the candidate carries several (``lines`` in front.json)."""
+def _line_figures(sheet: Sheet, section: str, item: str, line: Mapping[str, Any], key: str, pre: str,
+                  front: Mapping[str, Any], k: int) -> None:
+    """Length, insertion loss and impedance yield with its dominant tolerance: rows every line block carries."""
+    if is_num(line.get("length_mm")):
+        sheet.add(section, item, f"{pre}routed length", line["length_mm"], "mm", f"{key}.length_mm")
+    il, il_derived = insertion_loss(line)
+    if il is not None:
+        f = line.get("frequency_ghz")
+        if not is_num(f):
+            f = study_line(front, k, line.get("name")).get("frequency_ghz")
+        at = f" at {fmt(f)} GHz" if is_num(f) else ""
+        sheet.add(section, item, f"{pre}insertion loss over the routed length{at} (estimate)", il, "dB",
+                  "" if il_derived else f"{key}.insertion_loss_db",
+                  "loss per metre x routed length" if il_derived else "")
+    y = yield_of(line)
+    if y is not None:
+        sheet.add(section, item, f"{pre}share of boards inside the impedance tolerance (estimate)", y["yield_pct"], "%",
+                  f"{key}.impedance_yield.yield_pct",
+                  "quasi-Monte Carlo over the catalog's fabrication tolerances" +
+                  (f"; +/- {fmt(y['stderr_pct'], 2)} % sampling uncertainty" if y["stderr_pct"] is not None else "") +
+                  (f"; largest share of the variance: {y['dominant']}" if y["dominant"] else ""))
+        if y["dominant"] is not None:
+            sheet.add(section, item, f"{pre}tolerance that dominates the yield", y["dominant"], "",
+                      f"{key}.impedance_yield.dominant" if line["impedance_yield"].get("dominant") else "",
+                      f"{fmt(y['dominant_share_pct'], 3)} % of the impedance variance" if y["dominant_share_pct"]
+                      is not None else "largest share of the impedance variance")
+
+
+def other_lines(sheet: Sheet, cand: Mapping[str, Any], front: Mapping[str, Any] | None = None,
+                catalog: Any | None = None) -> None:
+    """An impedance block (section ``lines``, item = the line's name) for every line after the first when
+    the candidate carries several (``lines`` in front.json): layer, type, width and gap, target and
+    tolerance, the impedance of the model that decided, loss at its frequency, insertion loss, yield."""
+    front = front or {}
     lines = [ln for ln in cand.get("lines") or [] if isinstance(ln, Mapping)]
     if len(lines) < 2:
         return
-    for k, ln in enumerate(lines):
-        name = str(ln.get("name") or f"line {k + 1}")
-        for key, lab, unit in (("type", "line type", ""), ("layer_name", "signal layer", ""),
-                               ("width_um", "trace width as designed", "um"), ("gap_um", "gap as designed", "um"),
-                               ("target_ohm", "target impedance", "ohm"), ("z0_ohm", "impedance", "ohm"),
-                               ("z_diff_ohm", "differential impedance", "ohm")):
-            if ln.get(key) is not None:
-                sheet.add("lines", name, f"{name}: {lab}", ln[key], unit, f"lines[{k}].{key}")
+    for k, ln in enumerate(lines[1:], 1):
+        name = line_name(ln, k)
+        key = f"lines[{k}]"
+
+        def add(q: str, v: Any, unit: str = "", field: str = "", note: str = "") -> None:
+            sheet.add("lines", name, q, v, unit, f"{key}.{field}" if field else "", note)
+
+        pair = "coupled" in str(ln.get("type", ""))
+        add("signal layer", *((ln["layer_name"], "", "layer_name") if ln.get("layer_name") else (ln.get("layer"), "", "layer")))
+        add("line type", ln.get("type"), "", "type")
+        add("trace width as designed", ln.get("width_um"), "um", "width_um")
+        if ln.get("gap_um") is not None:
+            add("pair gap (edge to edge) as designed" if pair else "gap as designed", ln.get("gap_um"), "um", "gap_um")
+        entry = study_line(front, k, ln.get("name"))
+        target, tfield = ln.get("target_ohm"), "target_ohm"
+        if target is None:
+            target, tfield = entry.get("target_ohm"), ""
+        add("target differential impedance" if pair else "target impedance", target, "ohm", tfield,
+            "" if tfield else f"from the study ({key}.target_ohm)")
+        tol, tolkey, tolnote = impedance_tolerance(front, ln, catalog, entry, key)
+        sheet.add("lines", name, "impedance tolerance (+/-)", tol, "%", tolkey, tolnote)
+        src = "2-D field solution" if ln.get("impedance_model") == "field" else "closed form"
+        if pair and ln.get("z_diff_ohm") is not None:
+            add(f"differential impedance ({src})", ln.get("z_diff_ohm"), "ohm", "z_diff_ohm")
+        elif ln.get("z0_ohm") is not None:
+            add(f"impedance ({src})", ln.get("z0_ohm"), "ohm", "z0_ohm")
+        if is_num(ln.get("loss_db_per_m")):
+            f = ln.get("frequency_ghz") if is_num(ln.get("frequency_ghz")) else entry.get("frequency_ghz")
+            add("line loss" + (f" at {fmt(f)} GHz" if is_num(f) else " (frequency not stated)") + " (estimate)",
+                ln["loss_db_per_m"], "dB/m", "loss_db_per_m")
+        _line_figures(sheet, "lines", name, ln, key, "", front, k)
+        rel, src_w = width_tolerance(ln.get("copper_weight"), catalog)
+        w = ln.get("width_um")
+        if rel is not None and is_num(w):
+            add("trace width tolerance after etch (+/-)", derived(rel * w, "um"), "um", "",
+                f"{fmt(100 * rel)} % of the width for {ln.get('copper_weight')} copper (catalog fabrication.width_tolerance)")
 
 
 __all__ = ["impedance_rows", "other_lines", "COUPON_METHOD"]

@@ -61,20 +61,27 @@ def total_tolerance_um(total_um: float, catalog: Any | None) -> tuple[float | No
         return None, "catalog rule not available: agree with the fabricator"
 
 
-def impedance_tolerance(front: Mapping[str, Any], line: Mapping[str, Any], catalog: Any | None
-                         ) -> tuple[float | None, str, str]:
-    """(tolerance in percent, key, note)."""
+def impedance_tolerance(front: Mapping[str, Any], line: Mapping[str, Any], catalog: Any | None,
+                        entry: Mapping[str, Any] | None = None, where: str = "line"
+                        ) -> tuple[float | None, str, str]:
+    """(tolerance in percent, key, note).
+
+    ``entry`` is the study's own entry for this line (``study.lines[k]``; default ``study.line``) and
+    ``where`` its path as the note names it (``lines[1]``) and the key prefix of front.json's figures.
+    """
     for k in ("tolerance_pct", "impedance_tolerance_pct"):
         if isinstance(line.get(k), (int, float)):
-            return float(line[k]), f"line.{k}", ""
+            return float(line[k]), f"{where}.{k}", ""
     study = front.get("study") if isinstance(front.get("study"), Mapping) else {}
-    tol = (study.get("line") or {}).get("tolerance") if isinstance(study.get("line"), Mapping) else None
+    if entry is None:
+        entry = study.get("line") if isinstance(study.get("line"), Mapping) else {}
+    tol = entry.get("tolerance") if isinstance(entry, Mapping) else None
     if isinstance(tol, (int, float)) and not isinstance(tol, bool):
-        return float(tol), "", "from the study (line.tolerance)"
+        return float(tol), "", f"from the study ({where}.tolerance)"
     if isinstance(tol, str):
         m = re.fullmatch(r"\s*([0-9.]+)\s*%?\s*", tol)
         if m:
-            return float(m.group(1)), "", "from the study (line.tolerance)"
+            return float(m.group(1)), "", f"from the study ({where}.tolerance)"
         classes = getattr(getattr(catalog, "fabrication", None), "impedance_tolerance", {}) if catalog else {}
         if tol in classes:
             return 100.0 * float(classes[tol]), "", f"catalog class '{tol}'"

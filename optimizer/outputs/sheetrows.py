@@ -46,6 +46,7 @@ class Sheet:
     cautions: list[str] = field(default_factory=list)
     unbonded: bool = False
     bonded_build: list[dict[str, str]] = field(default_factory=list)  # unbonded: the build outside the bend
+    first_line: str = ""     # the first line's name when the candidate carries several lines (else empty)
 
     def add(self, *args: Any, **kwargs: Any) -> Row:
         row = Row(*args, **kwargs)

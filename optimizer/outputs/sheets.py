@@ -75,6 +75,12 @@ def _rows(rows: list[Row]) -> list[dict[str, Any]]:
     return [{"quantity": r.quantity, "cell": _cell(r, 5), "unit": r.unit, "note": r.note} for r in rows]
 
 
+def _blocks(rows: list[Row]) -> list[dict[str, Any]]:
+    """Rows grouped by item (a line's or a bend zone's name), in order: one small table each."""
+    names = list(dict.fromkeys(r.item for r in rows))
+    return [{"name": n, "rows": _rows([r for r in rows if r.item == n])} for n in names]
+
+
 #: Rows shown as full-width lines under the tables (long text).
 _WIDE = ("equation used", "field-solver check", "impedance test coupon", "coupon test method")
 
@@ -112,7 +118,8 @@ def sheet_html(sheet: Sheet) -> str:
         total_tol=_cell(worst if worst is not None else cap, 3),
         rss=_cell(rss, 3) if rss is not None else None, cap=_cell(cap, 3) if cap is not None else None,
         cap_note=cap.note if cap else "", method=TOLERANCE_METHOD,
-        impedance=_rows(imp + sheet.section("lines")), bend=_rows(sheet.section("bend") + sheet.section("objectives")),
+        impedance=_rows(imp), bend=_rows(sheet.section("bend") + sheet.section("objectives")),
+        first_line=sheet.first_line, line_blocks=_blocks(sheet.section("lines")), zone_blocks=_blocks(sheet.section("zone")),
         drawing=_rows(sheet.section("drawing")),
         wide=[{"quantity": r.quantity, "key": r.key, "value": csv_value(r.value), "text": r.value, "note": r.note}
               for r in wide],

@@ -4,7 +4,7 @@ var D = JSON.parse(document.getElementById('strainline-data').textContent);
 var C = D.candidates;
 var LABELS = {peak_strain_pct: 'peak copper strain (%)', total_thickness_um: 'total thickness (um)',
   signal_strain_pct: 'signal copper strain (%)', loss_db_per_m: 'loss (dB/m)', cycles: 'cycles',
-  cycles_to_failure: 'cycles to failure', width_um: 'trace width (um)'};
+  cycles_to_failure: 'cycles to failure', width_um: 'trace width (um)', yield_pct: 'impedance yield (%)'};
 function label(k) { return LABELS[k] || k.replace(/_/g, ' '); }
 function fmt(v, d) {
   if (v === null || v === undefined) return '-';
@@ -56,7 +56,12 @@ if (TO.indexOf('peak_strain_pct') < 0 && TO.length >= 2) {
   else { state.y = TO[0]; state.x = TO[1]; }
 }
 window.strainline = {data: D, state: state, select: select, compare: compare, renders: 0};
-if (!C.length) {           // nothing feasible: the page shows the diagnosis panel only, no empty plots
+if (!C.length) {           // nothing feasible: the diagnosis panel, with each nearest candidate drawn to scale
+  (D.nearest || []).forEach(function (n, k) {
+    if (document.getElementById('near-section-' + k) && n.layers.length)
+      drawSection({id: n.id, layers: n.layers, lines: [], refs: [], bend: {}, signal: null},
+                  {target: 'near-section-' + k, small: true});
+  });
   window.strainline.renders = 1;
   return;
 }
@@ -71,6 +76,7 @@ function addOpt(key, get) {
 addOpt('cycles_to_failure', function (c) { return c.bend.cycles_to_failure; });
 addOpt('width_um', function (c) { return c.line.width_um; });
 addOpt('signal_strain_pct', function (c) { return c.objectives.signal_strain_pct; });
+addOpt('yield_pct', function (c) { var ln = (c.lines || [])[0]; return ln && ln.yield ? ln.yield.yield_pct : null; });
 var sel = document.getElementById('colour-by');
 colourOpts.forEach(function (o) {
   var op = document.createElement('option'); op.value = o.key; op.textContent = label(o.key); sel.appendChild(op);
@@ -172,48 +178,80 @@ function pattern(cov, base) {
           fillmode: 'replace', size: 7};
 }
 
-function drawSection(c) {
+// where each line's conductors sit across the width: lines sharing a copper layer side by side, centred
+function linePlacement(c) {
+  var lines = (c.lines && c.lines.length ? c.lines : (c.line && c.line.width_um ? [Object.assign({signal: c.signal}, c.line)] : []))
+    .filter(function (ln) { return ln.signal !== null && ln.signal !== undefined && c.layers[ln.signal]; });
+  var out = [], byLayer = {};
+  lines.forEach(function (ln) { (byLayer[ln.signal] = byLayer[ln.signal] || []).push(ln); });
+  Object.keys(byLayer).forEach(function (key) {
+    var group = byLayer[key], alone = group.length === 1;
+    var foot = group.map(function (ln) {
+      var w = ln.width_um || 0, g = typeof ln.gap_um === 'number' ? ln.gap_um : 0;
+      return /coupled/.test(ln.type || '') ? 2 * w + g : (ln.type === 'coplanar' && !alone ? 3 * w + 2 * g : w);
+    });
+    var space = Math.max(40, Math.max.apply(null, group.map(function (ln) { return ln.width_um || 0; })));
+    var width = foot.reduce(function (a, b) { return a + b; }, 0) + space * (group.length - 1), x = -width / 2;
+    group.forEach(function (ln, k) {
+      out.push({ln: ln, centre: x + foot[k] / 2, alone: alone, first: ln === lines[0]});
+      x += foot[k] + space;
+    });
+  });
+  // the span each layer's conductors need, with room of one trace width and one gap on either side
+  return {list: out, extent: out.reduce(function (m, p, k) {
+    var w = p.ln.width_um || 0, g = typeof p.ln.gap_um === 'number' ? p.ln.gap_um : 0;
+    return Math.max(m, 2 * Math.abs(p.centre) + (/coupled/.test(p.ln.type || '') ? 2 * w + g : w) + 2 * w + 2 * g); }, 0)};
+}
+
+function drawSection(c, opts) {
+  opts = opts || {};
   var L = c.layers, total = L.length ? L[0].top_um : 0;
-  var w = c.line.width_um || 0, g = (c.line.gap_um === null || c.line.gap_um === undefined) ? 0 : c.line.gap_um;
-  var pair = /coupled/.test(c.line.type || '');
-  var cop = c.line.type === 'coplanar';
-  var span = Math.max(total * 2.6, 4 * w + 3 * g, 100);
+  var place = linePlacement(c), many = place.list.length > 1;
+  var sigLayers = place.list.map(function (p) { return p.ln.signal; });
+  var span = Math.max(total * 2.6, place.extent * 1.15, 100);
   var x0 = -span / 2, x1 = span / 2;
   var traces = [], anns = [];
   L.forEach(function (l, i) {
     var fam = l.family, col = D.colours[fam] || D.colours.other;
-    var isCu = l.kind === 'copper';
+    var isCu = l.kind === 'copper', isSig = sigLayers.indexOf(i) >= 0;
     var base = isCu ? (D.colours[familyOfFill(c, i)] || '#eadfc8') : col;
+    var cov = typeof l.coverage === 'number' ? l.coverage : 1;
     var tr = {type: 'scatter', mode: 'lines', x: [x0, x1, x1, x0, x0], y: [l.bottom_um, l.bottom_um, l.top_um, l.top_um, l.bottom_um],
-      fill: 'toself', fillcolor: isCu && l.coverage < 0.999 ? base : col, line: {color: '#555', width: 0.6},
+      fill: 'toself', fillcolor: isCu && cov < 0.999 ? base : col, line: {color: '#555', width: 0.6},
       name: esc(l.name), hoveron: 'fills', hoverinfo: 'text',
       text: esc(l.name) + ' (' + esc(l.material) + ')<br>' + efmt(l.thickness_um) + ' um' +
-        (isCu ? ', coverage ' + efmt(100 * l.coverage, 3) + ' %' : '')};
+        (isCu ? ', coverage ' + efmt(100 * cov, 3) + ' %' : '')};
     if (l.kind === 'air-gap') tr.line = {color: '#888', width: 0.8, dash: 'dot'};
-    if (isCu && l.coverage < 0.999 && i !== c.signal) tr.fillpattern = pattern(l.coverage, base);
-    if (i === c.signal) tr.fillcolor = base;
+    if (isCu && cov < 0.999 && !isSig) tr.fillpattern = pattern(cov, base);
+    if (isSig) tr.fillcolor = base;
     traces.push(tr);
   });
-  var s = c.signal;
-  if (s !== null && s !== undefined && L[s]) {
-    var l = L[s], rects = [];
-    if (pair) rects = [[-g / 2 - w, -g / 2], [g / 2, g / 2 + w]];
-    else rects = [[-w / 2, w / 2]];
-    if (cop) { rects.push([x0, -w / 2 - g]); rects.push([w / 2 + g, x1]); }
+  place.list.forEach(function (p) {
+    var ln = p.ln, l = L[ln.signal], w = ln.width_um || 0, g = typeof ln.gap_um === 'number' ? ln.gap_um : 0, m = p.centre;
+    var pair = /coupled/.test(ln.type || ''), cop = ln.type === 'coplanar', rects;
+    var who = many ? 'line ' + esc(ln.name) + ': ' : '';
+    if (pair) rects = [[m - g / 2 - w, m - g / 2], [m + g / 2, m + g / 2 + w]];
+    else rects = [[m - w / 2, m + w / 2]];
+    if (cop) {
+      if (p.alone) { rects.push([x0, m - w / 2 - g]); rects.push([m + w / 2 + g, x1]); }
+      else { rects.push([m - 1.5 * w - g, m - w / 2 - g]); rects.push([m + w / 2 + g, m + 1.5 * w + g]); }
+    }
     rects.forEach(function (r, k) {
-      var isSig = !cop || k === 0;
+      var isSig = !cop || k === 0 || (pair && k === 1);
       traces.push({type: 'scatter', mode: 'lines', x: [r[0], r[1], r[1], r[0], r[0]],
         y: [l.bottom_um, l.bottom_um, l.top_um, l.top_um, l.bottom_um], fill: 'toself',
         fillcolor: isSig ? D.signalColour : D.colours.copper, line: {color: '#611', width: 0.8},
-        hoveron: 'fills', hoverinfo: 'text', name: isSig ? 'signal' : 'coplanar ground',
-        text: (isSig ? 'signal trace ' : 'coplanar ground ') + efmt(w) + ' um wide'});
+        hoveron: 'fills', hoverinfo: 'text',
+        name: isSig ? (p.first ? 'signal' : 'signal ' + ln.name) : 'coplanar ground',
+        text: who + (isSig ? 'signal trace ' : 'coplanar ground ') + efmt(w) + ' um wide'});
     });
-    anns.push({x: rects[0][1], y: l.top_um, xref: 'x', yref: 'y', text: 'signal', showarrow: true, arrowhead: 0,
-      ax: 30, ay: -22, font: {size: 11, color: '#a11'}});
-  }
+    anns.push({x: rects[0][1], y: l.top_um, xref: 'x', yref: 'y', text: many ? esc(ln.name) : 'signal', showarrow: true,
+      arrowhead: 0, ax: 30, ay: -22, font: {size: 11, color: '#a11'}});
+  });
+  var s0 = place.list.length ? place.list[0].ln.signal : c.signal;
   (c.refs || []).forEach(function (r) {
     var l = L[r];
-    if (!l || r === s) return;
+    if (!l || r === s0) return;
     anns.push({x: x1, y: (l.top_um + l.bottom_um) / 2, xref: 'x', yref: 'y', text: 'reference: ' + esc(l.name),
       showarrow: true, arrowhead: 2, ax: 40, ay: 0, xanchor: 'left', font: {size: 11, color: '#1d4f91'}});
   });
@@ -223,9 +261,10 @@ function drawSection(c) {
     anns.push({x: x0, y: y, text: axes.length > 1 ? 'leaf ' + (k + 1) + ' neutral axis' : 'neutral axis',
       showarrow: false, xanchor: 'left', yanchor: 'bottom', font: {size: 11}});
   });
-  Plotly.react('section', traces, {
-    title: {text: 'Cross-section to scale (' + esc(c.id) + ')', font: {size: 13}},
-    margin: {l: 56, r: 170, t: 34, b: 40}, showlegend: false, hovermode: 'closest', shapes: shapes, annotations: anns,
+  Plotly.react(opts.target || 'section', traces, {
+    title: {text: (opts.small ? '' : 'Cross-section to scale (') + esc(c.id) + (opts.small ? ', to scale' : ')'), font: {size: opts.small ? 12 : 13}},
+    margin: opts.small ? {l: 48, r: 120, t: 28, b: 34} : {l: 56, r: 170, t: 34, b: 40}, showlegend: false,
+    hovermode: 'closest', shapes: shapes, annotations: anns,
     xaxis: {title: {text: 'width (um)'}, range: [x0, x1], zeroline: false, showgrid: false},
     yaxis: {title: {text: 'height from bottom face (um)'}, range: [-total * 0.04, total * 1.04], zeroline: false,
             scaleanchor: 'x', scaleratio: 1, showgrid: false},
@@ -253,7 +292,7 @@ function leaves(c) {
 }
 
 function neutralAxes(c) {
-  var na = c.bend.neutral_axis_um;
+  var na = (c.bend || {}).neutral_axis_um;
   return (Array.isArray(na) ? na : [na]).filter(function (y) { return typeof y === 'number'; });
 }
 
@@ -286,14 +325,41 @@ function drawZones(c) {
         el('td', null, fmt(b.required_cycles)), el('td', null, fmt(b.peak_copper_strain_pct)),
         el('td', null, fmt(b.cycles_to_failure, 3)), el('td', null, fmt(b.radius_to_thickness, 3))]);
     }))] : []);
+  drawLines(c);
+}
+
+function zText(ln) { return ln.z_label === 'Zdiff' ? 'Zdiff' : 'Z0'; }
+function yieldText(y) {
+  return fmt(y.yield_pct, 4) + ' %' + (typeof y.stderr_pct === 'number' ? ' +/- ' + fmt(y.stderr_pct, 2) + ' %' : '');
+}
+function dominantText(y) {
+  return y.dominant ? y.dominant + (typeof y.dominant_share_pct === 'number' ? ' (' + fmt(y.dominant_share_pct, 3) +
+    ' % of the variance)' : '') : '-';
+}
+// every controlled line of the candidate: layer, geometry, impedance against its target, loss, yield
+function drawLines(c) {
   var lines = c.lines || [];
-  fill('line-table', lines.length > 1 ? [el('thead', null, el('tr', null, ['line', 'type', 'layer', 'width (um)', 'gap (um)',
-    'impedance (ohm)', 'target (ohm)'].map(function (t, k) { return el('th', {'class': k < 3 ? 't' : ''}, t); }))),
-    el('tbody', null, lines.map(function (ln, k) {
-      var z = ln.z_diff_ohm !== null && ln.z_diff_ohm !== undefined ? ln.z_diff_ohm : ln.z0_ohm;
-      return el('tr', null, [el('td', {'class': 't'}, ln.name || 'line ' + (k + 1)), el('td', {'class': 't'}, fmt(ln.type)),
-        el('td', {'class': 't'}, fmt(ln.layer_name || ln.layer)), el('td', null, fmt(ln.width_um)), el('td', null, fmt(ln.gap_um)),
-        el('td', null, fmt(z)), el('td', null, fmt(ln.target_ohm))]);
+  var withYield = lines.some(function (ln) { return ln.yield; });
+  var withLength = lines.some(function (ln) { return typeof ln.insertion_loss_db === 'number' || typeof ln.length_mm === 'number'; });
+  var head = ['line', 'type', 'layer', 'width / gap (um)', 'impedance (ohm)', 'target (ohm)', 'off target (%)',
+    'loss (dB/m)'];
+  if (withLength) head.push('length (mm)', 'insertion loss (dB)');
+  if (withYield) head.push('impedance yield', 'dominant tolerance');
+  fill('line-table', lines.length ? [el('thead', null, el('tr', null, head.map(function (t, k) {
+    return el('th', {'class': k < 3 || t === 'dominant tolerance' ? 't' : ''}, t); }))),
+    el('tbody', null, lines.map(function (ln) {
+      var cells = [el('td', {'class': 't'}, ln.name), el('td', {'class': 't'}, fmt(ln.type)), el('td', {'class': 't'}, fmt(ln.layer)),
+        el('td', null, fmt(ln.width_um) + (typeof ln.gap_um === 'number' ? ' / ' + fmt(ln.gap_um) : '')),
+        el('td', {title: ln.model === 'field' ? 'decided by the 2-D field solution' : (ln.model ? 'decided by the closed form' : '')},
+          ln.z_ohm === null ? '-' : zText(ln) + ' ' + fmt(ln.z_ohm)),
+        el('td', null, fmt(ln.target_ohm) + (typeof ln.tolerance_pct === 'number' ? ' +/- ' + fmt(ln.tolerance_pct, 3) + ' %' : '')),
+        el('td', null, typeof ln.error_pct === 'number' ? fmt(Number(ln.error_pct.toFixed(2)) + 0) : '-'),
+        el('td', null, fmt(ln.loss_db_per_m) + (typeof ln.frequency_ghz === 'number' ? ' at ' + fmt(ln.frequency_ghz) + ' GHz' : ''))];
+      if (withLength) cells.push(el('td', null, fmt(ln.length_mm)), el('td', {title: ln.insertion_loss_derived ?
+        'loss per metre x length' : ''}, fmt(ln.insertion_loss_db)));
+      if (withYield) cells.push(el('td', {'class': ln.yield ? 'yield' : ''}, ln.yield ? yieldText(ln.yield) : '-'),
+        el('td', {'class': 't'}, ln.yield ? dominantText(ln.yield) : '-'));
+      return el('tr', {'data-line': ln.name}, cells);
     }))] : []);
 }
 
@@ -360,9 +426,22 @@ function drawLayerTable(c) {
   })) : []);
   var l = c.line, bd = c.bend, o = c.objectives;
   var parts = [];
-  parts.push('line: ' + (l.type || '-') + ' on ' + (l.layer_name || (l.layer === undefined ? '-' : 'copper layer ' + l.layer)) + ', width ' + fmt(l.width_um) + ' um' +
-    (l.gap_um !== null && l.gap_um !== undefined ? ', gap ' + fmt(l.gap_um) + ' um' : ''));
-  if (l.z_diff_ohm) parts.push('Zdiff ' + fmt(l.z_diff_ohm) + ' ohm'); else if (l.z0_ohm) parts.push('Z0 ' + fmt(l.z0_ohm) + ' ohm');
+  var lines = c.lines || [];
+  if (lines.length > 1) {
+    lines.forEach(function (ln) {
+      parts.push('line ' + ln.name + ': ' + (ln.type || '-') + ' on ' + (ln.layer || '-') + ', width ' + fmt(ln.width_um) + ' um' +
+        (typeof ln.gap_um === 'number' ? ', gap ' + fmt(ln.gap_um) + ' um' : '') +
+        (ln.z_ohm === null ? '' : ', ' + zText(ln) + ' ' + fmt(ln.z_ohm) + ' ohm'));
+    });
+  } else {
+    parts.push('line: ' + (l.type || '-') + ' on ' + (l.layer_name || (l.layer === undefined ? '-' : 'copper layer ' + l.layer)) + ', width ' + fmt(l.width_um) + ' um' +
+      (l.gap_um !== null && l.gap_um !== undefined ? ', gap ' + fmt(l.gap_um) + ' um' : ''));
+    if (l.z_diff_ohm) parts.push('Zdiff ' + fmt(l.z_diff_ohm) + ' ohm'); else if (l.z0_ohm) parts.push('Z0 ' + fmt(l.z0_ohm) + ' ohm');
+  }
+  lines.forEach(function (ln) {
+    if (ln.yield) parts.push('impedance yield' + (lines.length > 1 ? ' of ' + ln.name : '') + ' ' + yieldText(ln.yield) +
+      ', dominant tolerance: ' + dominantText(ln.yield));
+  });
   parts.push('bend: inner radius ' + fmt(bd.inner_radius_mm) + ' mm, ' + (bd.inside || '-') + ' face inside, ' +
     (bd.region || '-') + ', neutral axis ' + fmt(bd.neutral_axis_um) + ' um' +
     (Array.isArray(bd.neutral_axis_um) ? ' (one per bonded leaf, top to bottom)' : ''));
@@ -450,6 +529,22 @@ col('radius_to_thickness', 'R / thickness', function (c) { return c.bend.radius_
 col('neutral_axis_um', 'neutral axis (um)', function (c) { return c.bend.neutral_axis_um; });
 col('field_flag', 'field check', function (c) {
   return c.field_flag ? (c.field_flag.mismatch ? 'MISMATCH ' : 'ok ') + (c.field_flag.text || '') : null; });
+function lineAt(c, k) { return (c.lines || [])[k] || null; }
+var nLines = Math.max.apply(null, C.map(function (c) { return (c.lines || []).length; }).concat([0]));
+for (var lk = 0; lk < nLines; lk++) (function (k) {
+  var nm = C.map(function (c) { return lineAt(c, k); }).filter(Boolean)[0].name, pre = nLines > 1 ? nm + ': ' : '';
+  if (nLines > 1) {
+    col('line' + k + '.layer', pre + 'layer', function (c) { var ln = lineAt(c, k); return ln ? ln.layer : null; });
+    col('line' + k + '.width_um', pre + 'width (um)', function (c) { var ln = lineAt(c, k); return ln ? ln.width_um : null; });
+    col('line' + k + '.z_ohm', pre + 'impedance (ohm)', function (c) { var ln = lineAt(c, k); return ln ? ln.z_ohm : null; });
+    col('line' + k + '.insertion_loss_db', pre + 'insertion loss (dB)', function (c) {
+      var ln = lineAt(c, k); return ln ? ln.insertion_loss_db : null; });
+  }
+  col('line' + k + '.yield_pct', pre + 'impedance yield (%)', function (c) {
+    var ln = lineAt(c, k); return ln && ln.yield ? ln.yield.yield_pct : null; });
+  col('line' + k + '.dominant', pre + 'dominant tolerance', function (c) {
+    var ln = lineAt(c, k); return ln && ln.yield ? ln.yield.dominant : null; });
+})(lk);
 col('findings', 'findings', function (c) { return c.findings.length; });
 var sortState = {k: null, dir: 1};
 function drawTable() {
@@ -584,6 +679,12 @@ function compare(list) {
     ['cycles to failure', function (c) { return c.bend.cycles_to_failure; }],
     ['neutral axis (um)', function (c) { return c.bend.neutral_axis_um; }],
     ['field check', function (c) { return c.field_flag ? c.field_flag.text : null; }]);
+  (C[list[0]].lines || []).forEach(function (ln0, k) {
+    var pre = (C[list[0]].lines.length > 1 ? ln0.name + ': ' : '');
+    rowsDef.push([pre + 'impedance (ohm)', function (c) { var ln = lineAt(c, k); return ln ? ln.z_ohm : null; }]);
+    if (list.some(function (i) { var ln = lineAt(C[i], k); return ln && ln.yield; }))
+      rowsDef.push([pre + 'impedance yield (%)', function (c) { var ln = lineAt(c, k); return ln && ln.yield ? ln.yield.yield_pct : null; }]);
+  });
   fill('compare-table', [el('thead', null, el('tr', null, [el('th', {'class': 't'}, '')].concat(list.map(function (i, k) {
     return el('th', {style: 'color:' + CMP_COLOURS[k]}, C[i].id); })))),
     el('tbody', null, rowsDef.map(function (r) {
