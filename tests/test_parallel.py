@@ -1,7 +1,7 @@
 """Exhaustive search split over processes and a Dask cluster: the archive (front X and F, the index of
-each representative, the background sample, the counters) is identical, bit for bit, however the
-index space is split. Reference: the single-pass enumeration, itself checked against the definition
-of Pareto dominance (brute force) in tests/test_search.py."""
+each representative, the background sample, the counters, the nearest infeasible list) is identical,
+bit for bit, however the index space is split. Reference: the single-pass enumeration, itself checked
+against the definition of Pareto dominance (brute force) in tests/test_search.py."""
 from __future__ import annotations
 
 import pickle
@@ -38,6 +38,8 @@ def same_archive(a: Archive, b: Archive) -> None:
     np.testing.assert_array_equal(a.violated, b.violated)
     np.testing.assert_array_equal(a.near_X, b.near_X)
     assert (a.seen, a.feasible, a.near_cv, a.near_index) == (b.seen, b.feasible, b.near_cv, b.near_index)
+    for key in ("nearest_X", "nearest_G", "nearest_cv", "nearest_index"):     # the nearest infeasible list
+        np.testing.assert_array_equal(getattr(a, key), getattr(b, key))
 
 
 @pytest.fixture(scope="module")
