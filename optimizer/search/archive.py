@@ -25,8 +25,8 @@ import numpy as np
 #: How many nearest infeasible candidates an archive keeps (rank 1 is ``near_X``).
 NEAR_K = 5
 #: Candidates whose violation is only a lower bound (pruned) are refined in batches of this size,
-#: doubling, in increasing order of the bound.
-_REFINE_BATCH = 64
+#: growing fourfold, in increasing order of the bound.
+_REFINE_BATCH = 256
 
 
 # ---------------------------------------------------------------------------------------------
@@ -248,16 +248,6 @@ class Archive:
                 part |= ~np.isfinite(F[cand, k])
         full = cand[~part]
         if len(full):
-            # rows past the k-th smallest violation cannot enter, unless repeats of one design
-            # leave fewer than k distinct designs at or below it
-            m = self.near_k
-            while m < len(full):
-                v = np.partition(cv[full], m - 1)[m - 1]
-                sel = full[cv[full] <= v]
-                if len(np.unique(X[sel], axis=0)) >= self.near_k:
-                    full = sel
-                    break
-                m *= 2
             self._near_absorb(X[full], G[full], cv[full], idx[full])
         low = cand[part]
         if len(low):
@@ -275,15 +265,31 @@ class Archive:
                 keep = np.flatnonzero(np.isfinite(cvr))
                 self._near_absorb(X[rows[keep]], Gr[keep], cvr[keep], idx[rows[keep]])
                 pos += len(low[pos:pos + step])
-                step *= 2
+                step *= 4
 
     def _near_absorb(self, Xc: np.ndarray, Gc: np.ndarray, cvc: np.ndarray, Ic: np.ndarray) -> None:
         """Keep the ``near_k`` best distinct designs of the kept list and these rows."""
         if not len(cvc):
             return
+        cvc = np.asarray(cvc, float)
+        # rows past the k-th kept violation cannot enter; nor can rows past the k-th smallest
+        # violation of these rows, unless repeats of one design leave fewer than k distinct
+        # designs at or below it
+        sel = np.flatnonzero(cvc <= self._near_threshold())
+        m = self.near_k
+        while m < len(sel):
+            v = np.partition(cvc[sel], m - 1)[m - 1]
+            best = sel[cvc[sel] <= v]
+            if len(np.unique(Xc[best], axis=0)) >= self.near_k:
+                sel = best
+                break
+            m *= 2
+        if not len(sel):
+            return
+        Xc, Gc, cvc, Ic = Xc[sel], Gc[sel], cvc[sel], Ic[sel]
         X = np.concatenate([self.nearest_X, np.asarray(Xc, np.int64)])
         G = np.asarray(Gc, float) if self.nearest_G is None else np.concatenate([self.nearest_G, Gc])
-        cv = np.concatenate([self.nearest_cv, np.asarray(cvc, float)])
+        cv = np.concatenate([self.nearest_cv, cvc])
         ix = np.concatenate([self.nearest_index, np.asarray(Ic, np.int64)])
         # violation first, then x from its last variable to its first (= index order), then index
         order = np.lexsort((ix,) + tuple(X.T) + (cv,))
