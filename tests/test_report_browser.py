@@ -347,7 +347,10 @@ def test_infeasible_report_diagnoses_and_draws_no_empty_plot(browser_ctx, infeas
     page, log = _open(browser_ctx, (out / "report.html").as_uri())
     try:
         assert page.locator("#diagnosis").is_visible()
-        assert page.evaluate("document.querySelectorAll('.js-plotly-plot').length") == 0   # no default-axes plot
+        # no default-axes plot: the only plots are the nearest candidates' cross-sections, one each
+        assert page.evaluate("[...document.querySelectorAll('.js-plotly-plot')]"
+                             ".filter(p => !p.closest('#nearest-candidates')).length") == 0
+        assert page.locator("#nearest-candidates .js-plotly-plot").count() == len(inf.get("nearest_candidates") or [])
         assert page.locator("#front, #section, #strain, #parcoords").count() == 0
         rows = page.evaluate("[...document.querySelectorAll('#diagnosis table.diag tbody tr')]"
                              ".map(r => [...r.children].map(td => td.textContent.trim()))")

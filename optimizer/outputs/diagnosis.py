@@ -6,10 +6,12 @@ Every key is read defensively: a missing key leaves its part of the panel out.
 """
 from __future__ import annotations
 
+import re
 from collections.abc import Mapping
 from typing import Any
 
 from strainline.optimizer.outputs.formatting import fmt, is_num, readable, readable_choice, study_value
+from strainline.optimizer.outputs.stack import signal_index
 
 #: What else a designer can change when a constraint rules candidates out (study keys in brackets).
 HINTS: dict[str, str] = {
@@ -141,10 +143,12 @@ def nearest_candidates(front: Mapping[str, Any]) -> list[dict[str, Any]]:
             total = sum(float(lay.get("thickness_um") or 0.0) for lay in layers if is_num(lay.get("thickness_um")))
         choices = n.get("choices") if isinstance(n.get("choices"), Mapping) else {}
         rank = n.get("rank") if is_num(n.get("rank")) else k + 1
+        m = re.search(r"(\d+)", str(choices.get("signal_layer") or ""))     # "copper 4": the 4th copper layer
+        signal = signal_index({"layers": layers, "line": {"layer": int(m.group(1))}}) if m else None
         out.append({"rank": rank, "id": f"nearest {fmt(rank)}",
                     "total_violation": fmt(n["total_violation"], 3) if is_num(n.get("total_violation")) else "-",
                     "choices": [readable_choice(str(c), v) for c, v in choices.items()],
-                    "layers": layers, "total_thickness_um": total,
+                    "layers": layers, "total_thickness_um": total, "signal": signal,
                     "misses": [_miss(m) for m in n.get("misses") or [] if isinstance(m, Mapping)]})
     return out
 

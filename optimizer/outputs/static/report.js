@@ -59,7 +59,7 @@ window.strainline = {data: D, state: state, select: select, compare: compare, re
 if (!C.length) {           // nothing feasible: the diagnosis panel, with each nearest candidate drawn to scale
   (D.nearest || []).forEach(function (n, k) {
     if (document.getElementById('near-section-' + k) && n.layers.length)
-      drawSection({id: n.id, layers: n.layers, lines: [], refs: [], bend: {}, signal: null},
+      drawSection({id: n.id, layers: n.layers, lines: [], refs: [], bend: {}, signal: n.signal},
                   {target: 'near-section-' + k, small: true});
   });
   window.strainline.renders = 1;
@@ -206,11 +206,16 @@ function linePlacement(c) {
 function drawSection(c, opts) {
   opts = opts || {};
   var L = c.layers, total = L.length ? L[0].top_um : 0;
-  var place = linePlacement(c), many = place.list.length > 1;
+  var place = linePlacement(c), many = place.list.length > 1, anns = [];
   var sigLayers = place.list.map(function (p) { return p.ln.signal; });
+  if (!sigLayers.length && typeof c.signal === 'number' && L[c.signal]) {     // a layer known to carry the line, no geometry
+    sigLayers.push(c.signal);
+    anns.push({x: 0, y: L[c.signal].top_um, xref: 'x', yref: 'y', text: 'signal layer', showarrow: true, arrowhead: 0,
+      ax: 30, ay: -22, font: {size: 11, color: '#a11'}});
+  }
   var span = Math.max(total * 2.6, place.extent * 1.15, 100);
   var x0 = -span / 2, x1 = span / 2;
-  var traces = [], anns = [];
+  var traces = [];
   L.forEach(function (l, i) {
     var fam = l.family, col = D.colours[fam] || D.colours.other;
     var isCu = l.kind === 'copper', isSig = sigLayers.indexOf(i) >= 0;
@@ -223,7 +228,7 @@ function drawSection(c, opts) {
         (isCu ? ', coverage ' + efmt(100 * cov, 3) + ' %' : '')};
     if (l.kind === 'air-gap') tr.line = {color: '#888', width: 0.8, dash: 'dot'};
     if (isCu && cov < 0.999 && !isSig) tr.fillpattern = pattern(cov, base);
-    if (isSig) tr.fillcolor = base;
+    if (isSig) tr.fillcolor = place.list.length ? base : D.signalColour;   // no trace geometry: the whole layer marked
     traces.push(tr);
   });
   place.list.forEach(function (p) {
@@ -242,7 +247,7 @@ function drawSection(c, opts) {
         y: [l.bottom_um, l.bottom_um, l.top_um, l.top_um, l.bottom_um], fill: 'toself',
         fillcolor: isSig ? D.signalColour : D.colours.copper, line: {color: '#611', width: 0.8},
         hoveron: 'fills', hoverinfo: 'text',
-        name: isSig ? (p.first ? 'signal' : 'signal ' + ln.name) : 'coplanar ground',
+        name: isSig ? (p.first ? 'signal' : 'signal ' + esc(ln.name)) : 'coplanar ground',
         text: who + (isSig ? 'signal trace ' : 'coplanar ground ') + efmt(w) + ' um wide'});
     });
     anns.push({x: rects[0][1], y: l.top_um, xref: 'x', yref: 'y', text: many ? esc(ln.name) : 'signal', showarrow: true,
