@@ -108,8 +108,14 @@ def test_two_leaves_by_hand_on_nested_radii():
     assert [lay.name for lay in st.layers if lay.kind == "copper"] == ["L1 signal", "L2 ground", "L3 ground"]
 
 
+def _cat(study):
+    """The study's own catalog (a ``catalog:`` folder), else the built-in one."""
+    from strainline.optimizer.inputs.catalog import load_catalog
+    return load_catalog(study.catalog_path) if study.catalog_path is not None else CAT
+
+
 def _studies():
-    out = [load_study(p, CAT) for p in sorted((ROOT / "studies").glob("*.yaml"))]
+    out = [load_study(p) for p in sorted((ROOT / "studies").glob("*.yaml"))]
     base = {"name": "leafy", "line": {"type": "stripline", "target_ohm": 50, "width_range_um": [30, 500]},
             "bend": {"inner_radius_mm": 3, "use": "dynamic", "cycles": 5000, "region": "unbonded"},
             "stack": {"copper_layers": 5, "copper_weights": ["1/4oz", "1/2oz"], "copper_types": ["rolled-annealed"],
@@ -133,8 +139,8 @@ def _studies():
 def test_no_candidate_has_a_leaf_without_a_dielectric(study):
     # [B] every leaf a candidate can be built as carries a dielectric core of its own (film, core or
     # laminate); a lone copper foil between air gaps (the old model) never passes.
-    sp = build_space(study, CAT)
-    pb = build_problem(sp, CAT)
+    sp = build_space(study, _cat(study))
+    pb = build_problem(sp, _cat(study))
     x = sp.index_to_x(np.random.default_rng(11).integers(0, sp.size, 4000))
     ev = pb.evaluate(x)
     names = pb.constraint_names

@@ -26,6 +26,7 @@ from strainline.optimizer.inputs.modelkit import (
     first_error,
     show,
 )
+from strainline.optimizer.inputs.study_lines import study_lines
 from strainline.optimizer.inputs.study_zones import bend_zones
 
 
@@ -162,6 +163,29 @@ class LineModel(Base):
     hatch_correction: K.num(0.5, 5.0, description=(
         "impedance factor of a hatched reference plane calibrated on coupons (Z over the hatch / Z over a "
         "solid plane); overrides the 3-D field solver's factor")) = None
+    length_mm: K.num(0.0, 1e5, lo_open=True, description="routed length of the line, mm, for its insertion loss "
+                     "in dB (optional)") = None
+
+
+def _line_layer(value: Any) -> int | None:
+    if value == "auto":
+        return None
+    return int(K.check_number(value, (1, 8, False, False), integer=True))
+
+
+_LINE_NAME = {"pattern": r"[A-Za-z0-9][A-Za-z0-9_.-]{0,39}",
+              "rule": "a short name of letters, digits, '-', '_' or '.'"}
+
+
+class LineEntryModel(LineModel):
+    """One entry of ``lines:``: a line as in ``line:``, with its name, layer and sharing."""
+
+    name: K.text(**_LINE_NAME, description="the line's name (unique in the study)")
+    layer: Annotated[Any, Leaf(_line_layer, {
+        "description": "copper layer (1 = top) carrying this line, or auto (the search chooses; free order only)",
+        "oneOf": [{"type": "integer", "minimum": 1, "maximum": 8}, {"const": "auto"}]})] = None
+    share_with: list[K.text(**_LINE_NAME)] = Field(default=None, description=(
+        "names of other lines that may run on the same copper layer as this one (default: none)"))
 
 
 _LEAVES_SCHEMA = {
@@ -280,7 +304,12 @@ class StudyModel(Base):
     catalog: Annotated[str, Leaf(_catalog_path, {
         "type": "string", "description": "a catalog folder (materials.yaml, copper.yaml, fabrication.yaml) "
         "relative to the study file; default: the built-in catalog"})] = None
-    line: LineModel
+    line: LineModel = Field(default=None, description="the controlled-impedance line; or give lines: for several")
+    lines: list[LineEntryModel] = Field(default=None, description=(
+        "several controlled-impedance lines (each as line:, with name, layer and share_with); a candidate is "
+        "feasible only when every line holds"))
+    loss_line: K.text(**_LINE_NAME, description=(
+        "the line the loss objective reads (default: the worst line)")) = None
     bend: BendModel = Field(default=None, description="the bend (one zone); or give bends: for several zones")
     bends: list[BendModel] = Field(default=None, description=(
         "several bend zones (each as bend:, with a name); strain, life and material limits hold in every zone"))
@@ -294,6 +323,7 @@ class StudyModel(Base):
 
 
 assert tuple(StudyModel.model_fields) == S._TOP_KEYS and tuple(BendModel.model_fields) == S._BEND_KEYS
+assert tuple(LineEntryModel.model_fields) == S._LINES_ENTRY_KEYS
 assert tuple(LineModel.model_fields) == S._LINE_KEYS and tuple(StackModel.model_fields) == S._STACK_KEYS
 assert tuple(LimitsModel.model_fields) == S._LIMIT_KEYS and tuple(SearchModel.model_fields) == S._SEARCH_KEYS
 
@@ -341,46 +371,12 @@ def build_study(data: Any, catalog: Any, file: str = "", folder: Path | None = N
     except ValidationError as exc:
         raise first_error(exc, StudyModel, K.style, where, StudyError) from None
 
-    ln, st = m.line, m.stack
-    kind = ln.type
-    tol, tol_label = ln.tolerance if ln.tolerance is not None else tolerance_of(10, catalog)
-    # The nominal design must sit well inside the tolerance, leaving the rest of the band for
-    # dielectric thickness, Dk and etch scatter: by default half of it (common practice, no source).
-    nominal = ln.nominal_error_pct if ln.nominal_error_pct is not None else 50.0 * tol
-    if not 0.0 < nominal <= 100.0 * tol:
-        raise rng("line.nominal_error_pct", ln.nominal_error_pct, 0.0, 100.0 * tol, lo_open=True)
-    if kind in S.GAP_KINDS:
-        if ln.gap_um is None:
-            raise err("line.gap_um", f"is required for a {kind} line (a number or a list of gaps in um)")
-        gaps = ln.gap_um
-    else:
-        if ln.gap_um is not None:
-            raise err("line.gap_um", f"is only used by [{', '.join(S.GAP_KINDS)}], not by {kind!r}")
-        gaps = ()
-    line = S.LineSpec(kind, ln.target_ohm, tol, tol_label, nominal / 100.0, ln.width_range_um[0],
-                      ln.width_range_um[1], gaps, ln.frequency_ghz, ln.hatch_correction)
-
+    st = m.stack
     ncu = st.copper_layers
+    lines = study_lines(m, catalog, err, rng, tolerance_of)
     zones = bend_zones(m, ncu, err)
-    bend, bd = zones[0], m.bend if m.bend is not None else m.bends[0]
-
-    need = S.MIN_COPPER[kind]
-    if ncu < need:
-        why = "a stripline sits between two ground planes" if kind in S.INNER_KINDS else \
-            "an outer line needs the adjacent copper layer as its ground plane"
-        raise err("stack.copper_layers", f"{ncu} is too few for a {kind} line ({why}); allowed range [{need}, 8]")
-    if st.signal_layer is None:
-        if st.order == "fixed":
-            raise err("stack.signal_layer", "'auto' needs stack.order 'free'; give a copper layer number for a "
-                                            "fixed order")
-    else:
-        if st.signal_layer > ncu:
-            raise rng("stack.signal_layer", st.signal_layer, 1, ncu)
-        inner = kind in S.INNER_KINDS
-        allowed = list(range(2, ncu)) if inner else [1, ncu]
-        if st.signal_layer not in allowed:
-            raise err("stack.signal_layer", f"{st.signal_layer} cannot carry a {kind} line; it must be "
-                      f"{'an inner' if inner else 'an outer'} copper layer, one of [{', '.join(map(str, allowed))}]")
+    bd = m.bend if m.bend is not None else m.bends[0]
+    line, bend = lines[0], zones[0]
     for i, name in enumerate(st.dielectric):
         if catalog.dielectrics[name].glass_reinforced and any(z.use == "dynamic" for z in zones):
             raise err(f"stack.dielectric[{i}]", f"{name!r} is glass-reinforced and does not belong in a dynamic bend "
@@ -404,7 +400,8 @@ def build_study(data: Any, catalog: Any, file: str = "", folder: Path | None = N
         p = Path(m.catalog).expanduser()
         catalog_path = p if p.is_absolute() else (folder or Path(".")) / p
     return S.Study(m.name, m.description, line, bend, stack, limits, m.objectives, search, raw=dict(data),
-                   source=file, catalog_path=catalog_path, bends=zones, strain_bend=m.strain_bend)
+                   source=file, catalog_path=catalog_path, bends=zones, strain_bend=m.strain_bend, lines=lines,
+                   loss_line=m.loss_line)
 
 
 def _per_material(path: str, value: Any, materials: Any, where: Any) -> dict[str, tuple[float, ...]]:

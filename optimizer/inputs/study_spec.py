@@ -1,6 +1,6 @@
 """The validated study records (frozen dataclasses) and the constants of the study format.
 
-A study names the line to hold, the bend, the stack family to search, limits, objectives and the
+A study names the lines to hold, the bend, the stack family to search, limits, objectives and the
 search settings. Every problem with a study becomes one :class:`StudyError` whose text names the
 file, the field path, the bad value and the allowed values (with the closest match).
 
@@ -54,10 +54,15 @@ OBJECTIVE_RESOLUTION: dict[str, float] = {
 NONE = "none"
 
 # the keys of each section, in file order (the model in study_model.py has exactly these fields)
-_TOP_KEYS = ("name", "description", "catalog", "line", "bend", "bends", "strain_bend", "stack", "limits", "objectives",
+_TOP_KEYS = ("name", "description", "catalog", "line", "lines", "loss_line", "bend", "bends", "strain_bend", "stack", "limits", "objectives",
              "search")
 _LINE_KEYS = ("type", "target_ohm", "tolerance", "nominal_error_pct", "width_range_um", "gap_um", "frequency_ghz",
-              "hatch_correction")
+              "hatch_correction", "length_mm")
+#: The keys of one ``lines:`` entry: a line's keys plus its name, its copper layer and the lines it may
+#: share that layer with.
+_LINES_ENTRY_KEYS = _LINE_KEYS + ("name", "layer", "share_with")
+#: Most lines one study may hold (each adds a line table and a gather per candidate).
+MAX_LINES = 8
 _BEND_KEYS = ("name", "inner_radius_mm", "inside", "use", "cycles", "motion", "region", "leaves", "allow_uncovered",
               "plane_strain")
 _STACK_KEYS = (
@@ -91,6 +96,16 @@ class LineSpec:
     frequency_ghz: float
     #: Coupon-calibrated impedance factor of a hatched reference plane (None: the 3-D solver's).
     hatch_correction: float | None = None
+    #: The line's name (``lines[i].name``; "line" for the single ``line:`` form).
+    name: str = "line"
+    #: 1-based copper layer carrying the line; None = the search chooses.
+    layer: int | None = None
+    #: Routed length through the design, mm, for insertion loss in dB (None: loss per metre only).
+    length_mm: float | None = None
+    #: Names of the other lines this one may share its copper layer with.
+    share_with: tuple[str, ...] = ()
+    #: True when the study gave ``nominal_error_pct`` (else the default guard decides it).
+    nominal_error_given: bool = False
 
 
 @dataclass(frozen=True)
@@ -180,10 +195,17 @@ class Study:
     bends: tuple[BendSpec, ...] = ()
     #: The zone the strain and life objectives read (``strain_bend:``); None = the worst zone.
     strain_bend: str | None = None
+    #: Every controlled-impedance line (``lines:``; the single ``line:`` is the one-line case).
+    #: ``line`` is the first. A candidate is feasible only when every line holds.
+    lines: tuple[LineSpec, ...] = ()
+    #: The line the loss objective reads (``loss_line:``); None = the worst line.
+    loss_line: str | None = None
 
     def __post_init__(self) -> None:
         if not self.bends:
             object.__setattr__(self, "bends", (self.bend,))
+        if not self.lines:
+            object.__setattr__(self, "lines", (self.line,))
 
 
 def required_cycles(study: Study, zone: BendSpec) -> float | None:

@@ -8,6 +8,7 @@ cover adhesive]`` in an unbonded one (:mod:`.leaves`).
 from __future__ import annotations
 
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 
@@ -59,4 +60,37 @@ class Decoded:
 
 
 
-__all__ = ["Decoded", "cu_col", "gap_cols", "cover_cols"]
+def option_arrays(sp: Any) -> dict[str, np.ndarray]:
+    """The option tables of a space as arrays (SI), for the batch decoder and the line tables."""
+    from strainline.models.stackup import FLOWING_FAMILIES
+
+    return {
+        "cover_tf": np.array([c[2] for c in sp.cover_opts]),
+        "cover_mf": np.array([c[1] for c in sp.cover_opts], np.int64),
+        "cover_ta": np.array([c[4] for c in sp.cover_opts]),
+        "cover_ma": np.array([c[3] for c in sp.cover_opts], np.int64),
+        "cu_t": np.array([c[2] for c in sp.cu_opts]),
+        "cu_E": np.array([f.modulus_pa for f in sp.foils]),
+        "cu_nu": np.array([f.poisson for f in sp.foils]),
+        "cu_Su": np.array([f.tensile_strength_pa for f in sp.foils]),
+        "cu_Df": np.array([f.fatigue_ductility for f in sp.foils]),
+        "cu_rq": np.array([f.roughness_rq_m for f in sp.foils]),
+        "cu_sigma": np.array([f.conductivity_s_per_m for f in sp.foils]),
+        "film_t": np.array([f[1] for f in sp.film_opts]),
+        "film_m": np.array([f[0] for f in sp.film_opts], np.int64),
+        "adh_t": np.array([a[1] for a in sp.adh_opts]),
+        "adh_m": np.array([a[0] for a in sp.adh_opts], np.int64),
+        "mat_E": np.array([m.modulus_pa for m in sp.materials] or [0.0]),
+        "mat_nu": np.array([m.poisson for m in sp.materials] or [0.0]),
+        "mat_dk": np.array([m.dk for m in sp.materials] or [1.0]),
+        "mat_df": np.array([m.df for m in sp.materials] or [0.0]),
+        "mat_adhesive": np.array([m.family == "adhesive" for m in sp.materials] or [False]),
+        "mat_flows": np.array([m.family in FLOWING_FAMILIES for m in sp.materials] or [False]),
+        "mat_elong": np.array([m.elongation for m in sp.materials] or [np.inf]),
+        "mat_glass": np.array([m.glass for m in sp.materials] or [False]),
+        "mat_rmin": np.array([m.min_radius_m for m in sp.materials] or [0.0]),
+        "leaf_mask": np.array(sp.leaf_opts, bool).reshape(len(sp.leaf_opts), max(sp.n_cu - 1, 0)),
+    }
+
+
+__all__ = ["Decoded", "cu_col", "gap_cols", "cover_cols", "option_arrays"]

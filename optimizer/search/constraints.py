@@ -169,3 +169,20 @@ def material_constraints(problem: Any, slots: dict[str, np.ndarray], total_m: np
 
 
 __all__ = ["material_constraints", "strain_ratio", "names", "bare_faces", "TEXT", "GLASS_INSTALL_RATIO"]
+
+
+#: Human wording of each constraint for the "nothing feasible" message.
+CONSTRAINT_TEXT = {
+    "impedance": "nominal impedance within line.nominal_error_pct of the target after the width solve",
+    "width_range": "fabricator minimum trace width within the study's width range",
+    "gap_space": "gap at least the fabricator's minimum space",
+    "equation_range": "impedance equations inside their validity range",
+    "total_thickness": "total thickness limit",
+    "peak_strain": "peak copper strain limit",
+    "signal_strain": "signal copper strain limit",
+    "loss": "loss limit",
+    "fatigue_life": "required fatigue life",
+    "yield": "impedance yield at least limits.min_yield_pct under the fabrication tolerances",
+    "hatch_width": "over a hatched reference plane, a width in the range that meets the target impedance",
+    **TEXT,
+}

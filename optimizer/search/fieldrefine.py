@@ -143,34 +143,50 @@ def search_on_direct_rows(problem: Any, run_search: Callable[[], Any], *, worker
         The last search; ``problem.table.field_info`` records the rounds, the direct rows and
         whether the front ended on direct solves only.
     """
+    # one line problem per line with several lines (each has its own table), else the problem itself
+    parts = list(getattr(problem, "lines", None) or [problem])
     tb = problem.table
     result = run_search()
     if getattr(tb, "impedance_model", "closed-form") != "field":
         return result
-    info = tb.field_info
     cache = FieldCache()
     stats = SolveStats()
+    k = 0
     try:
         for k in range(max_searches):
             X = result.archive.X
-            rows = np.unique(problem.evaluate(X).line_row) if len(X) else np.array([], np.int64)
-            todo = rows[~tb.exact[rows]]
-            if info is not None:
-                info.front_rows_direct = bool(todo.size == 0)
-            if todo.size == 0 or k == max_searches - 1:
+            ev = problem.evaluate(X) if len(X) else None
+            todo_all = []
+            for j, part in enumerate(parts):
+                if ev is None:
+                    rows = np.array([], np.int64)
+                else:
+                    rows = np.unique(ev.line_rows[:, j] if ev.line_rows is not None else ev.line_row)
+                todo_all.append(rows[~part.table.exact[rows]])
+            done = all(t.size == 0 for t in todo_all)
+            for part in parts:
+                if part.table.field_info is not None:
+                    part.table.field_info.front_rows_direct = bool(done)
+            if done or k == max_searches - 1:
                 break
-            refine_rows(tb, todo, workers=workers, dask_address=dask_address, cache=cache, stats=stats)
-            _refresh(problem)
+            for part, todo in zip(parts, todo_all):
+                if todo.size:
+                    refine_rows(part.table, todo, workers=workers, dask_address=dask_address, cache=cache,
+                                stats=stats)
+                    _refresh(part)
             result = run_search()
     finally:
         cache.close()
-    if info is not None:
-        info.direct_rows = int(tb.exact.sum())
-        info.direct_solves = stats.solved
-        info.field_solves += stats.solved
-        info.cached += stats.cached
-        info.searches = k + 1
-        info.seconds += stats.seconds
+    for i, part in enumerate(parts):
+        info = part.table.field_info
+        if info is not None:
+            info.direct_rows = int(part.table.exact.sum())
+            if i == 0:       # the solve counts are shared by the lines; recorded once
+                info.direct_solves = stats.solved
+                info.field_solves += stats.solved
+                info.cached += stats.cached
+                info.seconds += stats.seconds
+            info.searches = k + 1
     return result
 
 

@@ -118,12 +118,13 @@ def leaf_state(space: Any, slots: dict[str, np.ndarray]) -> tuple[np.ndarray, np
     ok = np.ones(n, bool)
     if G == 0 or not boundary.any():
         return boundary, np.zeros((n, G), bool), ok
-    sig = slots["signal"]
+    sigs = list(slots["signals"].T) if "signals" in slots else [slots["signal"]]   # every line's layer
     adh_m, adh_t = space.arr["adh_m"], space.arr["adh_t"]
     film_up = np.zeros((n, G), bool)
     for g in range(G):
         b = boundary[:, g]
-        ok &= ~(b & ((sig == g) | (sig == g + 1)))       # the line's plane stays in its leaf
+        for sig in sigs:
+            ok &= ~(b & ((sig == g) | (sig == g + 1)))   # each line's plane stays in its leaf
         bond = (adh_m[slots["adh"][:, g]] >= 0) & (adh_t[slots["adh"][:, g]] > 0)
         ok &= ~(b & ~bond)                                # no bond ply to leave out: a double-sided core
         upper_alone = (boundary[:, g - 1] if g > 0 else np.ones(n, bool))

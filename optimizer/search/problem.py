@@ -48,6 +48,8 @@ from strainline.models.bending import bend_strains
 from strainline.models.fatigue import engelmaier_cycles, engelmaier_strain_range, strain_range
 from strainline.models.units import MM, UM
 from strainline.optimizer.search import constraints as material
+from strainline.optimizer.search import multiline as _ml
+from strainline.optimizer.search.evaluation import Evaluation, quantize  # noqa: F401 - re-exported
 from strainline.optimizer.search.faststrain import copper_strains as _copper_strains, fast_tables
 from strainline.optimizer.search.space import Space
 from strainline.optimizer.inputs.study import GAP_KINDS, OBJECTIVE_KEYS, OBJECTIVE_RESOLUTION
@@ -59,39 +61,6 @@ from strainline.optimizer.search.linetable import OUTER_KINDS, LineTable, build_
 #: the temporaries to stay in cache (measured with benchmarks/bench_solver.py: batches of 8192 run
 #: 10-40 % faster than one pass over 65536 rows).
 BLOCK = 8192
-
-
-def quantize(F: np.ndarray, resolution: float | np.ndarray) -> np.ndarray:
-    """Round objectives to a grid of ``resolution`` (per column, broadcast), so that designs
-    equal to within the resolution (and the same design reached through different codings or
-    summed in a different order) get identical objectives instead of counting as separate front
-    points. Non-finite values pass through."""
-    F = np.asarray(F, float)
-    res = np.asarray(resolution, float)
-    return np.where(np.isfinite(F), np.round(F / res) * res, F)
-
-
-@dataclass
-class Evaluation:
-    """Objectives and constraints of a batch, plus the figures the front reports."""
-
-    F: np.ndarray                 # (n, n_obj), minimized, edge units (life as -log10 cycles);
-    #                               feasible rows rounded to the objective resolution (:func:`quantize`)
-    G: np.ndarray                 # (n, n_con), feasible where all <= 0
-    peak_strain: np.ndarray       # (n,) fraction, max |strain| over copper faces
-    signal_strain: np.ndarray     # (n,) fraction
-    total_thickness_m: np.ndarray
-    line_row: np.ndarray          # (n,) LineTable row
-    cycles: np.ndarray | None = None
-    #: Per bend zone (n, Z), in the order of ``study.bends``: peak and signal copper strain
-    #: (fractions) and the least copper cycles to failure (only when cycles were asked for).
-    zone_peak: np.ndarray | None = None
-    zone_signal: np.ndarray | None = None
-    zone_cycles: np.ndarray | None = None
-
-    @property
-    def feasible(self) -> np.ndarray:
-        return np.all(self.G <= 0, axis=1)
 
 
 @dataclass
@@ -114,6 +83,18 @@ class Problem:
     catalog: Any = None
     #: The bend zone being evaluated (set during :meth:`evaluate`; None = ``study.bend``).
     zone: Any = None
+    #: Several lines: one line problem per line (:mod:`.multiline`); None for a one-line study.
+    lines: list | None = None
+
+    def _rows(self, slots: dict[str, np.ndarray]) -> np.ndarray:
+        """Line-table row per candidate: (n,), or (n, K) with several lines."""
+        return _ml.line_rows(self, slots) if self.lines else self.table.index(slots)
+
+    def _rows_ok(self, rows: np.ndarray) -> np.ndarray:
+        return _ml.line_ok(self, rows) if self.lines else self.line_ok(rows)
+
+    def _line_g(self, rows: np.ndarray, slots: dict[str, np.ndarray] | None = None) -> dict[str, np.ndarray]:
+        return _ml.line_constraints(self, rows, slots) if self.lines else self._line_constraints(rows)
 
     @property
     def n_var(self) -> int:
@@ -175,16 +156,17 @@ class Problem:
                 out.total_thickness_m[sl], out.line_row[sl] = e.total_thickness_m, e.line_row
                 if out.cycles is not None:
                     out.cycles[sl] = e.cycles
-                for key in ("zone_peak", "zone_signal", "zone_cycles"):
+                for key in ("zone_peak", "zone_signal", "zone_cycles", "line_rows"):
                     v = getattr(e, key)
                     if v is not None:
                         if getattr(out, key) is None:
-                            setattr(out, key, np.empty((n, v.shape[1])))
+                            setattr(out, key, np.empty((n, v.shape[1]), v.dtype))
                         getattr(out, key)[sl] = v
             return out
         if prune:
             slots = self.space.slots(x)
-            ok = self.line_ok(self.table.index(slots))
+            rows = self._rows(slots)
+            ok = self._rows_ok(rows)
             # pruning pays only when a good share of the batch fails on its line
             if ok.mean() <= 0.7:
                 sub = {k: v[ok] for k, v in slots.items()}
@@ -192,13 +174,14 @@ class Problem:
                 n = x.shape[0]
                 F = np.full((n, self.n_obj), np.nan, order="F")
                 G = np.zeros((n, self.n_con), order="F")
-                row = self.table.index(slots)
-                lim = self._line_constraints(row)
+                row = rows[:, 0] if self.lines else rows
+                lim = self._line_g(rows)
                 for k, c in enumerate(self.constraint_names):
                     if c in lim:
                         G[:, k] = lim[c]
                 pk = np.full(n, np.nan)
-                out = Evaluation(F, G, pk, pk.copy(), pk.copy(), row, None if not want_cycles else pk.copy())
+                out = Evaluation(F, G, pk, pk.copy(), pk.copy(), row, None if not want_cycles else pk.copy(),
+                                 line_rows=rows if self.lines else None)
                 if full is not None:
                     out.F[ok], out.G[ok] = full.F, full.G
                     out.peak_strain[ok], out.signal_strain[ok] = full.peak_strain, full.signal_strain
@@ -275,7 +258,9 @@ class Problem:
             finally:
                 self.zone = None
             zp[:, z] = cu_peak.max(axis=1)
-            if len(sp.sig_opts) == 1:
+            if self.lines:
+                zs[:, z] = _ml.signal_peak(cu_peak, slots)
+            elif len(sp.sig_opts) == 1:
                 zs[:, z] = cu_peak[:, sp.sig_opts[0]]
             elif len(sp.sig_opts) == 2:
                 s0, s1 = sp.sig_opts
@@ -294,7 +279,8 @@ class Problem:
                     r_i /= allowed.take(cu_opt[:, i], mode="clip")
                     fatigue = r_i if fatigue is None else np.maximum(fatigue, r_i, out=fatigue)
         peak, sig, cycles = zone_pick(study, zp, zs, zc if need_cycles else None)
-        row = self.table.index(slots)
+        rows = self._rows(slots)
+        row = rows[:, 0] if self.lines else rows
         tb = self.table
         F = np.empty((n, self.n_obj), order="F")   # columns contiguous
         for k, o in enumerate(self.objectives):
@@ -305,14 +291,15 @@ class Problem:
             elif o == "thickness":
                 F[:, k] = total / UM
             elif o == "loss":
-                F[:, k] = tb.loss_db_per_m[row]
+                F[:, k] = _ml.loss_column(self, rows, False) if self.lines else tb.loss_db_per_m[row]
             elif o == "life":
                 F[:, k] = -np.log10(np.maximum(cycles, 1e-300))
             elif o == "yield":
-                F[:, k] = 100.0 * (1.0 - self.row_yield().yield_frac[row])
+                F[:, k] = _ml.yield_shortfall(self, rows) if self.lines else \
+                    100.0 * (1.0 - self.row_yield().yield_frac[row])
         lim = study.limits
         G = np.empty((n, self.n_con), order="F")
-        line_g = self._line_constraints(row)
+        line_g = self._line_g(rows, slots)
         for k, c in enumerate(self.constraint_names):
             if c in line_g:
                 G[:, k] = line_g[c]
@@ -339,10 +326,12 @@ class Problem:
             F[np.ix_(feas, q)] = quantize(F[np.ix_(feas, q)], self.resolution[q])
             for k, o in enumerate(self.objectives):
                 if o == "loss":
-                    F[:, k] = self.fast["loss_q"].take(row, mode="clip")
+                    F[:, k] = _ml.loss_column(self, rows, True) if self.lines else \
+                        self.fast["loss_q"].take(row, mode="clip")
         else:
             F[feas] = quantize(F[feas], self.resolution)
-        return Evaluation(F, G, peak, sig, total, row, cycles, zp, zs, zc if need_cycles else None)
+        return Evaluation(F, G, peak, sig, total, row, cycles, zp, zs, zc if need_cycles else None,
+                          rows if self.lines else None)
 
     def copper_strains(self, slots: dict[str, np.ndarray], axis: bool = False, dielectric: bool = False):
         """Total thickness and peak strain of every copper layer from group sums
@@ -358,14 +347,32 @@ class Problem:
         return np.array([OBJECTIVE_RESOLUTION[o] for o in self.objectives], float)
 
 
-def build_problem(space: Space, catalog) -> Problem:
-    """The evaluator of a study: builds the line table and the constraint list."""
-    study = space.study
-    table = build_line_table(space, catalog)
+def _line_names(study: Any) -> list[str]:
     names = ["impedance", "width_range"]
     if study.line.type in GAP_KINDS:
         names.append("gap_space")
     names.append("equation_range")
+    return names
+
+
+def build_problem(space: Space, catalog) -> Problem:
+    """The evaluator of a study: builds the line table(s) and the constraint list."""
+    study = space.study
+    subs = None
+    if space.multi:
+        # one line problem per line, on the line's view of the space (:mod:`.multiline`)
+        def one(view: Space) -> Problem:
+            sub = Problem(view, build_line_table(view, catalog), (), _line_names(view.study)
+                          + (["yield"] if study.limits.min_yield_pct is not None else []))
+            sub.catalog = catalog
+            sub.fast = _fast_tables(sub)
+            return sub
+        subs = _ml.line_problems(space, one)
+        table = subs[0].table
+        names = _ml.names(subs)
+    else:
+        table = build_line_table(space, catalog)
+        names = _line_names(study)
     lim = study.limits
     allowed = None
     for key, cname in (("total_thickness_um", "total_thickness"), ("peak_strain_pct", "peak_strain"),
@@ -378,13 +385,14 @@ def build_problem(space: Space, catalog) -> Problem:
         allowed = [None if c is None else engelmaier_strain_range(c, a["cu_Df"], a["cu_Su"], a["cu_E"])
                    for c in need]
         names.append("fatigue_life")
-    if lim.min_yield_pct is not None:
+    if lim.min_yield_pct is not None and "yield" not in names:
         names.append("yield")
     if study.stack.ground_hatch:
         names.append("hatch_width")
     names += material.names(space)
     pb = Problem(space, table, tuple(study.objectives), names, allowed)
     pb.catalog = catalog
+    pb.lines = subs
     pb.fast = _fast_tables(pb)
     return pb
 
@@ -392,6 +400,8 @@ def build_problem(space: Space, catalog) -> Problem:
 def _fast_tables(pb: Problem) -> dict:
     """Per-option group sums for :meth:`Problem.copper_strains` and per-row line figures."""
     out = fast_tables(pb.space)
+    if pb.lines:        # several lines: each line problem holds its own per-row figures
+        return out
     rows = np.arange(pb.table.n_rows)
     g = pb._line_constraints_direct(rows)
     out["line_g_names"] = list(g)
@@ -402,18 +412,5 @@ def _fast_tables(pb: Problem) -> dict:
     return out
 
 
-#: Human wording of each constraint for the "nothing feasible" message.
-CONSTRAINT_TEXT = {
-    "impedance": "nominal impedance within line.nominal_error_pct of the target after the width solve",
-    "width_range": "fabricator minimum trace width within the study's width range",
-    "gap_space": "gap at least the fabricator's minimum space",
-    "equation_range": "impedance equations inside their validity range",
-    "total_thickness": "total thickness limit",
-    "peak_strain": "peak copper strain limit",
-    "signal_strain": "signal copper strain limit",
-    "loss": "loss limit",
-    "fatigue_life": "required fatigue life",
-    "yield": "impedance yield at least limits.min_yield_pct under the fabrication tolerances",
-    "hatch_width": "over a hatched reference plane, a width in the range that meets the target impedance",
-    **material.TEXT,
-}
+#: Human wording of each constraint for the "nothing feasible" message (:mod:`.constraints`).
+CONSTRAINT_TEXT = material.CONSTRAINT_TEXT

@@ -35,10 +35,9 @@ from typing import Any
 
 import numpy as np
 
-from strainline.models.stackup import FLOWING_FAMILIES
 from strainline.models.units import UM
 from strainline.optimizer.inputs.study import GAP_KINDS, NONE, Study
-from strainline.optimizer.search.columns import Decoded, cover_cols, cu_col, gap_cols  # noqa: F401
+from strainline.optimizer.search.columns import Decoded, cover_cols, cu_col, gap_cols, option_arrays  # noqa: F401
 from strainline.optimizer.search.leaves import label as leaf_label, leaf_options
 
 #: Copper-column index of copper layer i and the three gap columns of gap g (see module docstring).
@@ -91,6 +90,17 @@ class Space:
     # option tables as arrays (filled in by build_space)
     arr: dict[str, np.ndarray] = field(default_factory=dict)
     blocks: dict[str, np.ndarray] = field(default_factory=dict)
+    #: Several lines (:mod:`.linelayers`): per ``line_layers`` option, the 0-based copper layer of each
+    #: line (M, K) and the coverage of every copper layer (M, N); None for a one-line study.
+    line_sig: np.ndarray | None = None
+    line_cov: np.ndarray | None = None
+    #: Several lines: the pair-gap options of each line, m ((nan,) for a line without a gap).
+    line_gaps: list[tuple[float, ...]] = field(default_factory=list)
+
+    @property
+    def multi(self) -> bool:
+        """True when the study holds several lines (one ``line_layers`` variable places them)."""
+        return self.line_sig is not None
 
     @property
     def _col(self) -> dict[str, int]:
@@ -197,6 +207,14 @@ class Space:
             place[g] = p
         cover_top = get("cover[top]")
         cover_bot = cover_top if sym else get("cover[bottom]")
+        if self.line_sig is not None:
+            # several lines: one variable places every line and sets every layer's coverage
+            opt = get("line_layers")
+            signals = self.line_sig[opt]                                  # (n, K)
+            gap_opts = np.stack([get(f"gap[{ln.name}]") for ln in self.study.lines], axis=1)
+            return dict(cu=cu.T, film=film.T, adh=adh.T, place=place.T, cover_top=cover_top, cover_bot=cover_bot,
+                        signal=np.ascontiguousarray(signals[:, 0]), gap_opt=np.ascontiguousarray(gap_opts[:, 0]),
+                        cov_val=self.line_cov[opt], leaves=get("leaves"), signals=signals, gap_opts=gap_opts)
         signal = np.take(np.asarray(self.sig_opts, np.int64), get("signal_layer"))
         gap_opt = get("line_gap")
         cov_tab = np.asarray(self.cov_opts, float)
@@ -317,21 +335,30 @@ def build_space(study: Study, catalog: Any) -> Space:
         allowed = tuple(range(1, N - 1))
     else:
         allowed = (0, N - 1) if N > 1 else (0,)
-    if st.signal_layer is not None:
-        s0 = st.signal_layer - 1
+    fixed = study.line.layer if study.line.layer is not None else st.signal_layer
+    if fixed is not None:
+        s0 = fixed - 1
         if s0 not in allowed:
             from strainline.optimizer.errors import StudyError
             where = "an outer" if kind not in ("stripline", "coupled-stripline") else "an inner"
             raise StudyError(
-                f"{st.signal_layer} cannot carry a {kind} line; it must be {where} copper layer, one of "
+                f"{fixed} cannot carry a {kind} line; it must be {where} copper layer, one of "
                 f"[{', '.join(str(a + 1) for a in allowed)}]",
                 f"{study.source}: stack.signal_layer" if study.source else "stack.signal_layer")
         sig_opts: tuple[int, ...] = (s0,)
     else:
         sig_opts = tuple(sorted(set(allowed)))
+    line_sig = line_cov = None
+    line_labels: list[str] = []
+    if len(study.lines) > 1:
+        from strainline.optimizer.search.linelayers import layer_options
+        line_sig, line_cov, line_labels = layer_options(study, N, tuple(st.ground_coverage))
+        sig_opts = tuple(sorted({int(v) for v in line_sig.ravel()}))
 
     sp = Space(study, N, materials, mat_index, cover_opts, cu_opts, film_opts, adh_opts, place_opts,
-               tuple(st.ground_coverage), gap_opts, sig_opts, leaf_options(study, N, sig_opts), foils=foils)
+               tuple(st.ground_coverage), gap_opts, sig_opts, leaf_options(study, N, sig_opts), foils=foils,
+               line_sig=line_sig, line_cov=line_cov,
+               line_gaps=[tuple(g * UM for g in ln.gap_um) if ln.gap_um else (float("nan"),) for ln in study.lines])
     # variables
     V: list[Variable] = []
     half_cu = (N + 1) // 2 if st.symmetric else N
@@ -339,7 +366,10 @@ def build_space(study: Study, catalog: Any) -> Space:
     cu_labels = tuple(f"{w} {f}" for w, f, _ in cu_opts)
     film_labels = tuple(f"{materials[m].name} {_fmt_um(tm)}" for m, tm in film_opts)
     adh_labels = tuple(NONE if m < 0 else f"{materials[m].name} {_fmt_um(tm)}" for m, tm in adh_opts)
-    if len(sig_opts) > 1:
+    if line_sig is not None:
+        if len(line_labels) > 1:
+            V.append(Variable("line_layers", len(line_labels), tuple(line_labels)))
+    elif len(sig_opts) > 1:
         V.append(Variable("signal_layer", len(sig_opts), tuple(f"copper {s + 1}" for s in sig_opts)))
     for i in range(half_cu):
         V.append(Variable(f"copper[{i}]", len(cu_opts), cu_labels))
@@ -352,43 +382,21 @@ def build_space(study: Study, catalog: Any) -> Space:
     V.append(Variable("cover[top]", len(cover_opts), tuple(c[0] for c in cover_opts)))
     if not st.symmetric:
         V.append(Variable("cover[bottom]", len(cover_opts), tuple(c[0] for c in cover_opts)))
-    if len(sp.cov_opts) > 1:
+    if len(sp.cov_opts) > 1 and line_sig is None:
         n_cov_vars = (N + 1) // 2 if st.symmetric else N - 1
         for j in range(n_cov_vars):
             V.append(Variable(f"coverage[{j}]", len(sp.cov_opts), tuple(f"{c:g}" for c in sp.cov_opts)))
-    if len(gap_opts) > 1:
+    if line_sig is not None:
+        for ln, gaps in zip(study.lines, sp.line_gaps):
+            if len(gaps) > 1:
+                V.append(Variable(f"gap[{ln.name}]", len(gaps), tuple(_fmt_um(g) for g in gaps)))
+    elif len(gap_opts) > 1:
         V.append(Variable("line_gap", len(gap_opts), tuple(_fmt_um(g) for g in gap_opts)))
     if len(sp.leaf_opts) > 1:
         V.append(Variable("leaves", len(sp.leaf_opts), tuple(leaf_label(m) for m in sp.leaf_opts)))
     sp.variables = [v for v in V if v.size >= 1]
     # option arrays
-    sp.arr = {
-        "cover_tf": np.array([c[2] for c in cover_opts]),
-        "cover_mf": np.array([c[1] for c in cover_opts], np.int64),
-        "cover_ta": np.array([c[4] for c in cover_opts]),
-        "cover_ma": np.array([c[3] for c in cover_opts], np.int64),
-        "cu_t": np.array([c[2] for c in cu_opts]),
-        "cu_E": np.array([f.modulus_pa for f in foils]),
-        "cu_nu": np.array([f.poisson for f in foils]),
-        "cu_Su": np.array([f.tensile_strength_pa for f in foils]),
-        "cu_Df": np.array([f.fatigue_ductility for f in foils]),
-        "cu_rq": np.array([f.roughness_rq_m for f in foils]),
-        "cu_sigma": np.array([f.conductivity_s_per_m for f in foils]),
-        "film_t": np.array([f[1] for f in film_opts]),
-        "film_m": np.array([f[0] for f in film_opts], np.int64),
-        "adh_t": np.array([a[1] for a in adh_opts]),
-        "adh_m": np.array([a[0] for a in adh_opts], np.int64),
-        "mat_E": np.array([m.modulus_pa for m in materials] or [0.0]),
-        "mat_nu": np.array([m.poisson for m in materials] or [0.0]),
-        "mat_dk": np.array([m.dk for m in materials] or [1.0]),
-        "mat_df": np.array([m.df for m in materials] or [0.0]),
-        "mat_adhesive": np.array([m.family == "adhesive" for m in materials] or [False]),
-        "mat_flows": np.array([m.family in FLOWING_FAMILIES for m in materials] or [False]),
-        "mat_elong": np.array([m.elongation for m in materials] or [np.inf]),
-        "mat_glass": np.array([m.glass for m in materials] or [False]),
-        "mat_rmin": np.array([m.min_radius_m for m in materials] or [0.0]),
-        "leaf_mask": np.array(sp.leaf_opts, bool).reshape(len(sp.leaf_opts), max(N - 1, 0)),
-    }
+    sp.arr = option_arrays(sp)
     from strainline.optimizer.search.mechanics import blocks
     sp.blocks = blocks(sp)
     return sp
