@@ -35,6 +35,7 @@ LABELS: dict[str, str] = {
     "cycles": "cycles",
     "cycles_to_failure": "cycles to failure",
     "width_um": "trace width (um)",
+    "yield_shortfall_pct": "impedance yield shortfall, 100 - yield (%)",
 }
 
 

@@ -33,6 +33,7 @@ from strainline.optimizer.outputs.formatting import (
     study_name,
 )
 from strainline.optimizer.outputs.frontcheck import check_front, try_catalog
+from strainline.optimizer.outputs.linesview import impedance_of, line_name, lines_of, yield_of
 from strainline.optimizer.outputs.sheetbend import TO_FILL
 from strainline.optimizer.outputs.sheetdata import CONSTRUCTION_NOTES, TOLERANCE_METHOD, build_sheet  # noqa: F401
 from strainline.optimizer.outputs.sheetrows import PRECISION_NOTE, Row, Sheet
@@ -138,9 +139,13 @@ def index_html(front: Mapping[str, Any], sheets: list[Sheet]) -> str:
             "thickness": fmt(figure(c, "total_thickness_um")[0]), "strain": fmt(figure(c, "peak_strain_pct")[0]),
             "type": ln.get("type", "-"), "width": fmt(ln.get("width_um")),
             "z": fmt(ln.get("z_diff_ohm") if ln.get("z_diff_ohm") is not None else ln.get("z0_ohm")),
-            "radius": fmt(bd.get("inner_radius_mm")), "cycles": fmt(bd.get("cycles_to_failure"), 3)})
+            "radius": fmt(bd.get("inner_radius_mm")), "cycles": fmt(bd.get("cycles_to_failure"), 3),
+            "lines": [(line_name(x, k), fmt(impedance_of(x)[0]), fmt((yield_of(x) or {}).get("yield_pct")))
+                      for k, x in enumerate(lines_of(c))]})
+    many = any(len(r["lines"]) > 1 for r in rows)
+    with_yield = any(y != "-" for r in rows for _, _, y in r["lines"])
     return render("sheet_index.html", study=study_name(front), css=inline_style(static_text("sheet.css")),
-                  cautions=cautions(front), rows=rows)
+                  cautions=cautions(front), rows=rows, many=many, with_yield=with_yield)
 
 
 def build_handoff(front: Mapping[str, Any], catalog: Any | None = None) -> dict[str, str]:

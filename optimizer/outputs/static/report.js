@@ -4,7 +4,8 @@ var D = JSON.parse(document.getElementById('strainline-data').textContent);
 var C = D.candidates;
 var LABELS = {peak_strain_pct: 'peak copper strain (%)', total_thickness_um: 'total thickness (um)',
   signal_strain_pct: 'signal copper strain (%)', loss_db_per_m: 'loss (dB/m)', cycles: 'cycles',
-  cycles_to_failure: 'cycles to failure', width_um: 'trace width (um)', yield_pct: 'impedance yield (%)'};
+  cycles_to_failure: 'cycles to failure', width_um: 'trace width (um)', yield_pct: 'impedance yield (%)',
+  yield_shortfall_pct: 'impedance yield shortfall, 100 - yield (%)'};
 function label(k) { return LABELS[k] || k.replace(/_/g, ' '); }
 function fmt(v, d) {
   if (v === null || v === undefined) return '-';
