@@ -1,12 +1,12 @@
 """Fronts for the several-lines output tests (tests/test_outputs_lines.py, tests/test_report_lines_browser.py).
 
-``solved_front`` runs the shipped two-zone study (studies/reader-fold-and-hinge.yaml, its own catalog) with an
-impedance-yield limit added, so every candidate carries ``line.impedance_yield`` and two real bend zones.
-``three_lines`` then copies each candidate's real ``line`` into a ``lines`` list of three named lines. The
-copies are a TEST FIXTURE, not physics: the second and third lines get made-up widths (+10 um, +20 um), made-up
-routed lengths and a made-up yield (5 and 10 points lower), so that every number shown can be traced to its own
-line. ``infeasible`` turns a front into one with no feasible candidate and ``search.infeasible.nearest_candidates``
-built from three of its real candidates (their layers and choices), each missing a thickness limit set below it.
+``solved_front`` runs the shipped three-line study (studies/dock-tail-three-lines.yaml: a 50-ohm feed, a 90-ohm
+and a 100-ohm pair, a fold and a hinge, its own catalog) with an impedance-yield limit added, so every line of
+every candidate carries ``impedance_yield``; ``one_line_front`` does the same with the shipped one-line two-zone
+study (studies/reader-fold-and-hinge.yaml). ``renamed`` gives the lines other names (test fixture: hostile
+text). ``infeasible`` turns a front into one with no feasible candidate and
+``search.infeasible.nearest_candidates`` built from three of its real candidates (their layers and choices),
+each missing a thickness limit set below it (a test fixture, not a search result).
 """
 from __future__ import annotations
 
@@ -16,47 +16,54 @@ from pathlib import Path
 from typing import Any
 
 ROOT = Path(__file__).resolve().parents[1]
-STUDY = ROOT / "studies" / "reader-fold-and-hinge.yaml"
-NAMES = ("rf-feed", "usb-pair", "cam-pair")
-LENGTHS_MM = (40.0, 65.0, None)        # made up; the third line has no routed length
+STUDY = ROOT / "studies" / "dock-tail-three-lines.yaml"
+ONE_LINE_STUDY = ROOT / "studies" / "reader-fold-and-hinge.yaml"
+NAMES = ("antenna", "usb", "display")
+
+
+def _solve(study: Path, catalog: str, limit: str, tmp: Path) -> dict[str, Any]:
+    """`strainline solve` of a shipped study copied to ``tmp`` (its catalog path made absolute) with
+    ``limits.min_yield_pct: 50`` added; a short evolutionary run."""
+    from strainline.optimizer.cli.main import main
+
+    text = study.read_text(encoding="utf-8")
+    assert f"catalog: {catalog}" in text and f"  total_thickness_um: {limit}\n" in text
+    text = text.replace(f"catalog: {catalog}", f"catalog: {study.parent / catalog}")
+    text = text.replace(f"  total_thickness_um: {limit}\n", f"  total_thickness_um: {limit}\n  min_yield_pct: 50\n")
+    path = tmp / study.name
+    path.write_text(text, encoding="utf-8")
+    out = tmp / (study.stem + "-out")
+    assert main(["solve", str(path), "--out", str(out), "--method", "evolutionary", "--budget", "1500", "--quiet"]) == 0
+    front = json.loads((out / "front.json").read_text(encoding="utf-8"))
+    assert front["candidates"] and all(len(c["bends"]) == 2 for c in front["candidates"])
+    return front
 
 
 def solved_front(tmp: Path) -> dict[str, Any]:
-    """A real `strainline solve` of the shipped two-zone study with ``limits.min_yield_pct: 50`` added."""
-    from strainline.optimizer.cli.main import main
+    """The shipped three-line study, solved with a yield limit: three lines and two zones per candidate."""
+    front = _solve(STUDY, "catalogs/dock-fab", "450", tmp)
+    for c in front["candidates"]:
+        assert [ln["name"] for ln in c["lines"]] == list(NAMES) and c["line"] == c["lines"][0]
+        assert all(isinstance(ln.get("impedance_yield"), dict) for ln in c["lines"])
+    return front
 
-    text = STUDY.read_text(encoding="utf-8")
-    assert "catalog: catalogs/reader-fab" in text and "  total_thickness_um: 400\n" in text
-    text = text.replace("catalog: catalogs/reader-fab", f"catalog: {STUDY.parent / 'catalogs' / 'reader-fab'}")
-    text = text.replace("  total_thickness_um: 400\n", "  total_thickness_um: 400\n  min_yield_pct: 50\n")
-    study = tmp / "reader-yield.yaml"
-    study.write_text(text, encoding="utf-8")
-    out = tmp / "solved"
-    assert main(["solve", str(study), "--out", str(out), "--budget", "1500", "--quiet"]) == 0
-    front = json.loads((out / "front.json").read_text(encoding="utf-8"))
-    assert front["candidates"] and all(len(c["bends"]) == 2 for c in front["candidates"])
+
+def one_line_front(tmp: Path) -> dict[str, Any]:
+    """The shipped one-line two-zone study, solved with a yield limit."""
+    front = _solve(ONE_LINE_STUDY, "catalogs/reader-fab", "400", tmp)
     assert all(isinstance(c["line"].get("impedance_yield"), dict) for c in front["candidates"])
     return front
 
 
-def three_lines(front: dict[str, Any], names: tuple[str, ...] = NAMES) -> dict[str, Any]:
-    """The front with three named lines per candidate (a test fixture, see the module docstring)."""
+def renamed(front: dict[str, Any], names: tuple[str, ...]) -> dict[str, Any]:
+    """The front with its lines renamed (in the candidates and the study echo): a test fixture."""
     front = copy.deepcopy(front)
     for c in front["candidates"]:
-        base = c["line"]
-        lines = []
-        for k, name in enumerate(names):
-            ln = copy.deepcopy(base)
+        for ln, name in zip(c["lines"], names):
             ln["name"] = name
-            ln["width_um"] = base["width_um"] + 10.0 * k
-            ln["length_mm"] = LENGTHS_MM[k]
-            ln["insertion_loss_db"] = None if LENGTHS_MM[k] is None else base["loss_db_per_m"] * LENGTHS_MM[k] / 1000
-            ln["impedance_yield"] = dict(base["impedance_yield"], yield_pct=base["impedance_yield"]["yield_pct"] - 5 * k)
-            lines.append(ln)
-        c["lines"] = lines
-        c["line"] = lines[0]
-    study_line = front["study"].pop("line")
-    front["study"]["lines"] = [dict(study_line, name=n) for n in names]
+        c["line"] = c["lines"][0]
+    for entry, name in zip(front["study"]["lines"], names):
+        entry["name"] = name
     return front
 
 

@@ -1,15 +1,15 @@
 """Several controlled lines and bend zones in front.csv, the report's page data and the handoff sheets.
 
-The front comes from a real `strainline solve` of a shipped two-zone study with an impedance-yield limit
-(tests/lines_front.py); its one line is copied into three named lines (a test fixture, not physics). What
-the outputs show is checked against front.json itself (the figures must be copied exactly) and against
-definitions outside the code under test: insertion loss in dB is the loss in dB/m times the length in m
-(definition of a per-length attenuation), and the tolerance that dominates the yield is the one with the
-largest share of the impedance variance (the definition the yield model states, issue 14: "which
-tolerance dominates it").
+The fronts come from real `strainline solve` runs of the shipped three-line study and of a shipped one-line
+study, each with an impedance-yield limit added (tests/lines_front.py). What the outputs show is checked
+against front.json itself (figures copied exactly) and against definitions outside the code under test:
+insertion loss in dB is the loss in dB/m times the length in m (definition of a per-length attenuation), and
+the tolerance that dominates the yield is the one with the largest share of the impedance variance (the
+definition the yield model states; issue 14: "which tolerance dominates it").
 """
 from __future__ import annotations
 
+import copy
 import csv
 import io
 import re
@@ -18,7 +18,7 @@ from html import unescape
 import pandas as pd
 import pytest
 
-from lines_front import LENGTHS_MM, NAMES, infeasible, solved_front, three_lines
+from lines_front import NAMES, infeasible, one_line_front, solved_front
 from strainline.optimizer.outputs.diagnosis import diagnosis
 from strainline.optimizer.outputs.frontfiles import flat_rows, front_csv
 from strainline.optimizer.outputs.pagedata import page_data
@@ -26,13 +26,18 @@ from strainline.optimizer.outputs.sheets import build_handoff
 
 
 @pytest.fixture(scope="module")
-def solved(tmp_path_factory):
+def front(tmp_path_factory):
     return solved_front(tmp_path_factory.mktemp("lines"))
 
 
 @pytest.fixture(scope="module")
-def front(solved):
-    return three_lines(solved)
+def solved(tmp_path_factory):
+    """A one-line study's front."""
+    return one_line_front(tmp_path_factory.mktemp("one-line"))
+
+
+def _z(line):
+    return line["z_diff_ohm"] if line["z_diff_ohm"] is not None else line["z0_ohm"]
 
 
 def _dominant(line):
@@ -49,24 +54,26 @@ def _resolve(cand, key):
 
 
 def test_csv_has_one_named_set_of_columns_per_line(front):
+    front = copy.deepcopy(front)
+    for c in front["candidates"]:     # test fixture: the last line without a routed length shows empty cells
+        c["lines"][2].update(length_mm=None, insertion_loss_db=None)
     rows = list(csv.DictReader(io.StringIO(front_csv(front))))
     assert len(rows) == len(front["candidates"])
     for row, cand in zip(rows, front["candidates"]):
         for k, (name, ln) in enumerate(zip(NAMES, cand["lines"])):
             col = f"lines.{name}."
             assert float(row[col + "width_um"]) == ln["width_um"]          # exact copy of front.json
-            assert float(row[col + "gap_um"]) == ln["gap_um"]
+            assert row[col + "gap_um"] == ("" if ln["gap_um"] is None else repr(ln["gap_um"]))
             assert row[col + "layer"] == str(ln["layer"]) and row[col + "type"] == ln["type"]
-            z = ln["z_diff_ohm"] if ln["z_diff_ohm"] is not None else ln["z0_ohm"]
-            assert float(row[col + "z_ohm"]) == z
+            assert float(row[col + "z_ohm"]) == _z(ln)
             assert float(row[col + "target_ohm"]) == ln["target_ohm"]
             assert float(row[col + "impedance_error_pct"]) == ln["impedance_error_pct"]
             assert float(row[col + "loss_db_per_m"]) == ln["loss_db_per_m"]
-            if LENGTHS_MM[k] is None:
+            if ln["length_mm"] is None:
                 assert row[col + "length_mm"] == "" and row[col + "insertion_loss_db"] == ""
             else:   # dB/m x m (definition of a per-length loss)
                 assert float(row[col + "insertion_loss_db"]) == pytest.approx(
-                    ln["loss_db_per_m"] * LENGTHS_MM[k] / 1000.0, rel=1e-12)
+                    ln["loss_db_per_m"] * ln["length_mm"] / 1000.0, rel=1e-9)
             assert float(row[col + "yield_pct"]) == ln["impedance_yield"]["yield_pct"]
             assert row[col + "yield_dominant"] == _dominant(ln)
         for z, zone in enumerate(cand["bends"], 1):             # every bend zone, numbered from 1
@@ -93,13 +100,16 @@ def test_page_data_shows_every_line_with_yield_and_dominant_tolerance(front):
     for view, cand in zip(data["candidates"], front["candidates"]):
         assert [v["name"] for v in view["lines"]] == list(NAMES)
         for v, ln in zip(view["lines"], cand["lines"]):
-            assert v["width_um"] == ln["width_um"] and v["z_ohm"] == ln["z_diff_ohm"]
+            assert v["width_um"] == ln["width_um"] and v["z_ohm"] == _z(ln)
+            assert v["insertion_loss_db"] == ln["insertion_loss_db"] == pytest.approx(
+                ln["loss_db_per_m"] * ln["length_mm"] / 1000.0, rel=1e-9)       # dB/m x m
             assert v["yield"]["yield_pct"] == ln["impedance_yield"]["yield_pct"]
             assert v["yield"]["dominant"] == _dominant(ln)
             share = ln["impedance_yield"]["variance_share"][_dominant(ln)]
             assert v["yield"]["dominant_share_pct"] == pytest.approx(100 * share, rel=1e-12)
             assert v["tolerance_pct"] == pytest.approx(10.0)         # the study's tolerance: 10 (%)
-            assert cand["layers"][v["signal"]]["kind"] == "copper"
+            copper = [j for j, lay in enumerate(cand["layers"]) if lay["kind"] == "copper"]
+            assert v["signal"] == copper[ln["layer"] - 1]              # copper layers counted from the top
 
 
 def test_sheets_give_every_line_and_every_zone_its_block(front):
@@ -119,24 +129,23 @@ def test_sheets_give_every_line_and_every_zone_its_block(front):
                 assert text == str(want), key
         keys = {k for k, _ in keyed}
         for k in (1, 2):
-            for field in ("layer_name", "type", "width_um", "gap_um", "z_diff_ohm", "loss_db_per_m",
-                          "impedance_yield.yield_pct", "impedance_yield.dominant"):
+            for field in ("layer_name", "type", "width_um", "gap_um", "z_diff_ohm", "loss_db_per_m", "length_mm",
+                          "insertion_loss_db", "impedance_yield.yield_pct", "impedance_yield.dominant"):
                 assert f"lines[{k}].{field}" in keys, (k, field)
             block = df[(df["section"] == "lines") & (df["item"] == NAMES[k])].set_index("quantity")
             assert float(block.loc["impedance tolerance (+/-)", "value"]) == pytest.approx(10.0)
             assert "lines[%d].tolerance" % k in block.loc["impedance tolerance (+/-)", "note"]
             assert block.loc["tolerance that dominates the yield", "value"] == _dominant(cand["lines"][k])
             il = block[block.index.str.startswith("insertion loss")]
-            if LENGTHS_MM[k] is None:
-                assert il.empty
-            else:                                           # dB/m x m (definition)
-                assert float(il["value"].iloc[0]) == pytest.approx(
-                    cand["lines"][k]["loss_db_per_m"] * LENGTHS_MM[k] / 1000.0, rel=1e-12)
-                assert " GHz" in il.index[0]
+            ln = cand["lines"][k]                                 # dB/m x m (definition)
+            assert float(il["value"].iloc[0]) == pytest.approx(ln["loss_db_per_m"] * ln["length_mm"] / 1000.0, rel=1e-9)
+            assert f"at {ln['frequency_ghz']:g} GHz" in il.index[0]
             assert f'data-line="{NAMES[k]}"' in html
         first = df[df["section"] == "impedance"].set_index("quantity")
         assert first.loc["tolerance that dominates the yield", "value"] == _dominant(cand["lines"][0])
-        assert "Controlled impedance: line rf-feed" in html
+        assert f"Controlled impedance: line {NAMES[0]}" in html
+        carries = df[(df["section"] == "stackup") & (df["quantity"] == "function")]
+        assert sum(v.startswith("signal (") for v in carries["value"]) == len({ln["layer"] for ln in cand["lines"]})
         for z, zone in enumerate(cand["bends"]):
             rows = df[(df["section"] == "zone") & (df["item"] == zone["name"])]
             assert {f"bends[{z}].inner_radius_mm", f"bends[{z}].peak_copper_strain_pct",
@@ -144,8 +153,9 @@ def test_sheets_give_every_line_and_every_zone_its_block(front):
             assert f'data-zone="{zone["name"]}"' in html
 
 
-def test_diagnosis_lists_the_nearest_candidates_with_their_misses(front):
-    bad = infeasible(front)
+@pytest.mark.parametrize("which", ["three lines", "one line"])
+def test_diagnosis_lists_the_nearest_candidates_with_their_misses(which, request):
+    bad = infeasible(request.getfixturevalue("front" if which == "three lines" else "solved"))
     d = diagnosis(bad)
     near = bad["search"]["infeasible"]["nearest_candidates"]
     assert [n["rank"] for n in d["candidates"]] == [1, 2, 3]
@@ -158,8 +168,11 @@ def test_diagnosis_lists_the_nearest_candidates_with_their_misses(front):
         assert m["over"].endswith(" %") and float(m["over"][:-2]) == pytest.approx(
             100 * n["misses"][0]["excess"], rel=5e-3)         # 3 significant figures: within half a unit of the 3rd
         copper = [i for i, lay in enumerate(n["layers"]) if lay["kind"] == "copper"]
-        layer_no = int(re.search(r"\d+", n["choices"]["signal_layer"]).group(0))
-        assert shown["signal"] == copper[layer_no - 1]
+        if "line_layers" in n["choices"]:      # "antenna@L4 usb@L1 display@L1": each line and its copper layer
+            want = [(p.split("@")[0], copper[int(p.split("@L")[1]) - 1]) for p in n["choices"]["line_layers"].split()]
+        else:                                   # one line: "copper 4"
+            want = [("signal layer", copper[int(re.search(r"\d+", n["choices"]["signal_layer"]).group(0)) - 1])]
+        assert [(x["name"], x["signal"]) for x in shown["signals"]] == want
     data = page_data(bad, None)
     assert [len(n["layers"]) for n in data["nearest"]] == [len(n["layers"]) for n in near]
     for n in data["nearest"]:                 # heights stack from the bottom face: top of layer j = bottom of j-1

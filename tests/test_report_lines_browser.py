@@ -1,11 +1,11 @@
 """Several lines, yield and the nearest candidates of an infeasible run, in a real headless Chromium.
 
-The front is a real `strainline solve` of a shipped two-zone study with an impedance-yield limit, its one
-line copied into three named lines (tests/lines_front.py, a test fixture, not physics). The report must show
-every line (table, panel, cross-section drawn to scale with each line's own width), each line's yield and
-the tolerance with the largest variance share, every zone; the infeasible panel must draw each nearest
-candidate to scale with its misses; hostile line names must show as text and run nothing. Every figure is
-compared with front.json; insertion loss with dB/m x m (definition of a per-length loss).
+The front is a real `strainline solve` of the shipped three-line study with an impedance-yield limit added
+(tests/lines_front.py). The report must show every line (table, panel, cross-section drawn to scale with each
+line's own width on its own layer), each line's yield and the tolerance with the largest variance share, every
+zone; the infeasible panel must draw each nearest candidate to scale with its misses; hostile line names must
+show as text and run nothing. Every figure is compared with front.json; insertion loss with dB/m x m
+(definition of a per-length loss).
 """
 from __future__ import annotations
 
@@ -15,7 +15,7 @@ import tempfile
 
 import pytest
 
-from lines_front import NAMES, infeasible, solved_front, three_lines
+from lines_front import NAMES, infeasible, renamed, solved_front
 from strainline.optimizer.cli.main import main
 from strainline.optimizer.outputs.formatting import fmt
 from strainline.optimizer.outputs.stack import layer_heights
@@ -71,7 +71,7 @@ def _cells(page, sel):
 
 
 def test_every_line_its_yield_and_dominant_tolerance_in_the_panel(browser_ctx, solved, tmp_path):
-    front = three_lines(solved)
+    front = solved
     out = _report(front, tmp_path / "three")
     page, log = _open(browser_ctx, (out / "report.html").as_uri())
     try:
@@ -85,8 +85,10 @@ def test_every_line_its_yield_and_dominant_tolerance_in_the_panel(browser_ctx, s
             col = {h: j for j, h in enumerate(heads)}
             for r, ln in zip(rows, cand["lines"]):
                 assert r[col["layer"]] == ln["layer_name"]
-                assert r[col["width / gap (um)"]] == f"{fmt(ln['width_um'])} / {fmt(ln['gap_um'])}"
-                assert r[col["impedance (ohm)"]] == f"Zdiff {fmt(ln['z_diff_ohm'])}"
+                assert r[col["width / gap (um)"]] == fmt(ln["width_um"]) + (
+                    "" if ln["gap_um"] is None else f" / {fmt(ln['gap_um'])}")
+                assert r[col["impedance (ohm)"]] == (f"Zdiff {fmt(ln['z_diff_ohm'])}" if ln["z_diff_ohm"] is not None
+                                                     else f"Z0 {fmt(ln['z0_ohm'])}")
                 assert r[col["target (ohm)"]].startswith(fmt(ln["target_ohm"]))
                 assert r[col["loss (dB/m)"]] == f"{fmt(ln['loss_db_per_m'])} at {fmt(ln['frequency_ghz'])} GHz"
                 if ln["length_mm"] is None:
@@ -106,18 +108,28 @@ def test_every_line_its_yield_and_dominant_tolerance_in_the_panel(browser_ctx, s
             # the cross-section draws every line on its layer with its own width, to scale
             traces = page.evaluate("document.getElementById('section').data.filter(t => /^signal/.test(t.name))"
                                    ".map(t => [t.name, t.x, t.y])")
+            copper = [j for j, lay in enumerate(cand["layers"]) if lay["kind"] == "copper"]
+            by_layer = {}
             for k, ln in enumerate(cand["lines"]):
                 mine = [t for t in traces if t[0] == ("signal" if k == 0 else f"signal {ln['name']}")]
-                assert len(mine) == 2                               # a coupled pair: two conductors
+                pair = ln["type"].startswith("coupled")
+                assert len(mine) == (2 if pair else 1)              # a pair: two conductors
                 for _, xs, _ in mine:
                     assert max(xs) - min(xs) == pytest.approx(ln["width_um"], rel=1e-9)
-                edges = sorted([min(mine[0][1]), max(mine[0][1]), min(mine[1][1]), max(mine[1][1])])
-                assert edges[2] - edges[1] == pytest.approx(ln["gap_um"], rel=1e-9)
-                sig = [j for j, lay in enumerate(cand["layers"]) if lay["name"] == ln["layer_name"]][0]
-                bottom, top = layer_heights(cand["layers"])[sig]
-                assert min(mine[0][2]) == pytest.approx(bottom) and max(mine[0][2]) == pytest.approx(top)
-            spans = sorted((min(t[1]), max(t[1])) for t in traces)
-            assert all(a[1] < b[0] for a, b in zip(spans, spans[1:]))      # lines on one layer do not overlap
+                if pair:
+                    edges = sorted([min(mine[0][1]), max(mine[0][1]), min(mine[1][1]), max(mine[1][1])])
+                    assert edges[2] - edges[1] == pytest.approx(ln["gap_um"], rel=1e-9)
+                bottom, top = layer_heights(cand["layers"])[copper[ln["layer"] - 1]]   # its own copper layer
+                for _, _, ys in mine:
+                    assert min(ys) == pytest.approx(bottom) and max(ys) == pytest.approx(top)
+                by_layer.setdefault(ln["layer"], []).extend((min(t[1]), max(t[1])) for t in mine)
+            for spans in by_layer.values():                  # lines sharing a layer do not overlap
+                spans.sort()
+                assert all(a[1] < b[0] for a, b in zip(spans, spans[1:]))
+            tags = page.evaluate("[...document.querySelectorAll('#layer-table tbody tr')].map(r => r.children[0].textContent)")
+            for lay_no in by_layer:
+                on = ", ".join(ln["name"] for ln in cand["lines"] if ln["layer"] == lay_no)
+                assert tags[copper[lay_no - 1]].endswith(f"(signal: {on})")
             # every zone: a button and a table row each
             assert page.locator("#zone-buttons button").all_inner_texts() == [z["name"] for z in cand["bends"]]
             assert [r[0] for r in _cells(page, "#zone-table")] == [z["name"] for z in cand["bends"]]
@@ -125,7 +137,7 @@ def test_every_line_its_yield_and_dominant_tolerance_in_the_panel(browser_ctx, s
         heads = page.evaluate("[...document.querySelectorAll('#cand-table thead th')].map(t => t.textContent)")
         for name in NAMES:
             assert f"{name}: impedance yield (%)" in heads and f"{name}: dominant tolerance" in heads
-        j = heads.index("usb-pair: impedance yield (%)")
+        j = heads.index(f"{NAMES[1]}: impedance yield (%)")
         shown = page.evaluate(f"[...document.querySelectorAll('#cand-table tbody tr')].map(r => "
                               f"[Number(r.dataset.i), Number(r.children[{j}].dataset.v)])")
         assert all(v == cands[i]["lines"][1]["impedance_yield"]["yield_pct"] for i, v in shown)
@@ -136,7 +148,7 @@ def test_every_line_its_yield_and_dominant_tolerance_in_the_panel(browser_ctx, s
 
 
 def test_infeasible_panel_draws_each_nearest_candidate_with_its_misses(browser_ctx, solved, tmp_path):
-    front = infeasible(three_lines(solved))
+    front = infeasible(solved)
     near = front["search"]["infeasible"]["nearest_candidates"]
     out = _report(front, tmp_path / "infeasible")
     page, log = _open(browser_ctx, (out / "report.html").as_uri())
@@ -150,6 +162,12 @@ def test_infeasible_panel_draws_each_nearest_candidate_with_its_misses(browser_c
                                  ".filter(t => t.fill === 'toself').map(t => t.y)")
             want = [[b, b, t, t, b] for b, t in layer_heights(n["layers"])]
             assert data == [pytest.approx(w) for w in want]            # every layer to scale, top to bottom
+            anns = page.evaluate(f"document.getElementById('near-section-{k}').layout.annotations.map(a => [a.text, a.y])")
+            copper = [j for j, lay in enumerate(n["layers"]) if lay["kind"] == "copper"]
+            tops = [t for _, t in layer_heights(n["layers"])]
+            want = [[p.split("@L")[0], pytest.approx(tops[copper[int(p.split("@L")[1]) - 1]])]   # each line on its layer
+                    for p in n["choices"]["line_layers"].split()]
+            assert [a for a in anns if a[0] in NAMES] == want
             lay = page.evaluate(f"document.getElementById('near-section-{k}').layout.yaxis")
             assert lay["scaleanchor"] == "x" and lay["scaleratio"] == 1
             (row,) = _cells(page, f".near:nth-child({k + 1}) table.misses")
@@ -165,7 +183,7 @@ def test_infeasible_panel_draws_each_nearest_candidate_with_its_misses(browser_c
 
 
 def test_hostile_line_names_show_literally_and_run_nothing(browser_ctx, solved, tmp_path):
-    front = three_lines(solved, names=HOSTILE)
+    front = renamed(solved, HOSTILE)
     out = _report(front, tmp_path / "hostile")
     page, log = _open(browser_ctx, (out / "report.html").as_uri())
     try:

@@ -127,6 +127,21 @@ def _miss(m: Mapping[str, Any]) -> dict[str, Any]:
             if is_num(m.get("excess")) else "-"}
 
 
+def _signal_layers(choices: Mapping[str, Any], layers: list[dict[str, Any]]) -> list[dict[str, Any]]:
+    """The layers carrying lines, from a candidate's choices: ``line_layers`` (``antenna@L4 usb@L1``, several
+    lines) or ``signal_layer`` (``copper 4``, one line); each {name, signal: layer index top to bottom}."""
+    pairs = re.findall(r"(\S+)@L(\d+)", str(choices.get("line_layers") or ""))
+    if not pairs:
+        m = re.search(r"(\d+)", str(choices.get("signal_layer") or ""))     # "copper 4": the 4th copper layer
+        pairs = [("signal layer", m.group(1))] if m else []
+    out = []
+    for name, n in pairs:
+        idx = signal_index({"layers": layers, "line": {"layer": int(n)}})
+        if idx is not None:
+            out.append({"name": name, "signal": idx})
+    return out
+
+
 def nearest_candidates(front: Mapping[str, Any]) -> list[dict[str, Any]]:
     """The nearest candidates of a run with no feasible one (``search.infeasible.nearest_candidates``), best
     first: rank, total violation, choices with 1-based names, layers (top to bottom), total thickness and
@@ -143,12 +158,11 @@ def nearest_candidates(front: Mapping[str, Any]) -> list[dict[str, Any]]:
             total = sum(float(lay.get("thickness_um") or 0.0) for lay in layers if is_num(lay.get("thickness_um")))
         choices = n.get("choices") if isinstance(n.get("choices"), Mapping) else {}
         rank = n.get("rank") if is_num(n.get("rank")) else k + 1
-        m = re.search(r"(\d+)", str(choices.get("signal_layer") or ""))     # "copper 4": the 4th copper layer
-        signal = signal_index({"layers": layers, "line": {"layer": int(m.group(1))}}) if m else None
+        signals = _signal_layers(choices, layers)
         out.append({"rank": rank, "id": f"nearest {fmt(rank)}",
                     "total_violation": fmt(n["total_violation"], 3) if is_num(n.get("total_violation")) else "-",
                     "choices": [readable_choice(str(c), v) for c, v in choices.items()],
-                    "layers": layers, "total_thickness_um": total, "signal": signal,
+                    "layers": layers, "total_thickness_um": total, "signals": signals,
                     "misses": [_miss(m) for m in n.get("misses") or [] if isinstance(m, Mapping)]})
     return out
 

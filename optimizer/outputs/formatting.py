@@ -67,7 +67,12 @@ def readable_choice(key: str, value: Any) -> tuple[str, Any]:
     m = _CHOICE.match(str(key))
     if isinstance(value, str):
         value = re.sub(r"\bcopper (\d+)\b", lambda v: f"L{v.group(1)}", value)
+        if key == "line_layers":          # "antenna@L4 usb@L1" -> "antenna on L4, usb on L1"
+            value = ", ".join(re.sub(r"^(.+)@(L\d+)$", r"\1 on \2", part) for part in value.split())
     if not m:
+        named = re.fullmatch(r"([a-z_]+)\[(.+)\]", str(key))      # a choice of one named line: gap[usb]
+        if named:
+            return f"{named.group(1).replace('_', ' ')} of line {named.group(2)}", value
         return readable(key), value
     kind, i = m.group("kind"), m.group("i")
     if not i.isdigit():

@@ -126,6 +126,23 @@ def line_summary(line: Mapping[str, Any], k: int, front: Mapping[str, Any], cata
             "insertion_loss_db": il, "insertion_loss_derived": il_derived, "yield": yield_of(line)}
 
 
+def layer_roles(cand: Mapping[str, Any]) -> tuple[dict[int, list[str]], set[int]]:
+    """Which copper layers carry which lines (layer index -> line names) and which are any line's reference
+    planes (indices top to bottom), over every line of the candidate."""
+    from strainline.optimizer.outputs.stack import reference_indices, signal_index
+
+    layers = cand.get("layers") or []
+    carries: dict[int, list[str]] = {}
+    refs: set[int] = set()
+    for k, ln in enumerate(lines_of(cand)):
+        view = {"line": ln, "layers": layers}
+        s = signal_index(view)
+        if s is not None:
+            carries.setdefault(s, []).append(line_name(ln, k))
+        refs.update(reference_indices(view))
+    return carries, refs
+
+
 def csv_columns(cand: Mapping[str, Any]) -> dict[str, Any]:
     """front.csv's per-line columns of one candidate: ``lines.<name>.<field>`` (:data:`CSV_FIELDS`)."""
     lines = lines_of(cand)
@@ -147,4 +164,4 @@ def csv_columns(cand: Mapping[str, Any]) -> dict[str, Any]:
 
 
 __all__ = ["CSV_FIELDS", "lines_of", "line_name", "unique_names", "study_line", "impedance_of", "insertion_loss",
-           "yield_of", "layer_text", "line_summary", "csv_columns"]
+           "yield_of", "layer_text", "line_summary", "layer_roles", "csv_columns"]

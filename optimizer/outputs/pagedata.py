@@ -218,6 +218,7 @@ def line_views(cand: Mapping[str, Any], front: Mapping[str, Any], catalog: Any |
     for k, ln in enumerate(lines_of(cand)):
         v = line_summary(ln, k, front, catalog)
         v["signal"] = signal_index({"line": ln, "layers": cand.get("layers") or []})
+        v["refs"] = reference_indices({"line": ln, "layers": cand.get("layers") or []})
         out.append(v)
     return out
 

@@ -16,7 +16,7 @@ from typing import Any
 
 from strainline.optimizer.outputs.formatting import cautions, figure, findings_of, fmt, study_name, study_value
 from strainline.optimizer.outputs.sheetbend import bend_rows, drawing_rows, zone_rows
-from strainline.optimizer.outputs.linesview import line_name
+from strainline.optimizer.outputs.linesview import layer_roles, line_name, lines_of
 from strainline.optimizer.outputs.sheetline import impedance_rows, other_lines
 from strainline.optimizer.outputs.sheetlookup import (
     bonded_build,
@@ -54,6 +54,10 @@ def _stackup(sheet: Sheet, cand: Mapping[str, Any], catalog: Any | None, sig: in
         kind = lay.get("kind")
         if kind == "copper":
             role = "signal" if j == sig else ("reference plane" if j in refs else str(lay.get("role") or "copper"))
+            if len(lines_of(cand)) > 1:           # several lines: every line's layer and reference planes
+                carries, all_refs = layer_roles(cand)
+                role = (f"signal ({', '.join(carries[j])})" if j in carries else
+                        "reference plane" if j in all_refs else str(lay.get("role") or "copper"))
         elif kind == "air-gap":
             role = "air gap in the bend only"
         else:

@@ -60,7 +60,7 @@ window.strainline = {data: D, state: state, select: select, compare: compare, re
 if (!C.length) {           // nothing feasible: the diagnosis panel, with each nearest candidate drawn to scale
   (D.nearest || []).forEach(function (n, k) {
     if (document.getElementById('near-section-' + k) && n.layers.length)
-      drawSection({id: n.id, layers: n.layers, lines: [], refs: [], bend: {}, signal: n.signal},
+      drawSection({id: n.id, layers: n.layers, lines: [], refs: [], bend: {}, signal: null, signals: n.signals},
                   {target: 'near-section-' + k, small: true});
   });
   window.strainline.renders = 1;
@@ -209,11 +209,13 @@ function drawSection(c, opts) {
   var L = c.layers, total = L.length ? L[0].top_um : 0;
   var place = linePlacement(c), many = place.list.length > 1, anns = [];
   var sigLayers = place.list.map(function (p) { return p.ln.signal; });
-  if (!sigLayers.length && typeof c.signal === 'number' && L[c.signal]) {     // a layer known to carry the line, no geometry
-    sigLayers.push(c.signal);
-    anns.push({x: 0, y: L[c.signal].top_um, xref: 'x', yref: 'y', text: 'signal layer', showarrow: true, arrowhead: 0,
-      ax: 30, ay: -22, font: {size: 11, color: '#a11'}});
-  }
+  if (!sigLayers.length) (c.signals || []).forEach(function (sg) {   // layers known to carry lines, no trace geometry
+    if (!L[sg.signal]) return;
+    var k = sigLayers.filter(function (x) { return x === sg.signal; }).length;
+    sigLayers.push(sg.signal);
+    anns.push({x: 0, y: L[sg.signal].top_um, xref: 'x', yref: 'y', text: esc(sg.name), showarrow: true, arrowhead: 0,
+      ax: 30 + 70 * k, ay: -22, font: {size: 11, color: '#a11'}});
+  });
   var span = Math.max(total * 2.6, place.extent * 1.15, 100);
   var x0 = -span / 2, x1 = span / 2;
   var traces = [];
@@ -254,10 +256,11 @@ function drawSection(c, opts) {
     anns.push({x: rects[0][1], y: l.top_um, xref: 'x', yref: 'y', text: many ? esc(ln.name) : 'signal', showarrow: true,
       arrowhead: 0, ax: 30, ay: -22, font: {size: 11, color: '#a11'}});
   });
-  var s0 = place.list.length ? place.list[0].ln.signal : c.signal;
-  (c.refs || []).forEach(function (r) {
+  var refs = (c.refs || []).slice();
+  place.list.forEach(function (p) { (p.ln.refs || []).forEach(function (r) { if (refs.indexOf(r) < 0) refs.push(r); }); });
+  refs.forEach(function (r) {
     var l = L[r];
-    if (!l || r === s0) return;
+    if (!l || sigLayers.indexOf(r) >= 0) return;
     anns.push({x: x1, y: (l.top_um + l.bottom_um) / 2, xref: 'x', yref: 'y', text: 'reference: ' + esc(l.name),
       showarrow: true, arrowhead: 2, ax: 40, ay: 0, xanchor: 'left', font: {size: 11, color: '#1d4f91'}});
   });
@@ -417,8 +420,11 @@ function drawLayerTable(c) {
     ['modulus_gpa', 'E (GPa)'], ['effective_modulus_gpa', 'E eff. (GPa)'], ['coverage', 'coverage'], ['dk', 'Dk'], ['df', 'Df'],
     ['strain_top_pct', 'strain top (%)'], ['strain_bottom_pct', 'strain bottom (%)']];
   var head = el('thead', null, el('tr', null, cols.map(function (k) { return el('th', {'class': k[2] || ''}, k[1]); })));
+  var many = (c.lines || []).length > 1;
   var body = el('tbody', null, c.layers.map(function (l, i) {
-    var tag = i === c.signal ? ' (signal)' : (c.refs.indexOf(i) >= 0 ? ' (reference)' : '');
+    var on = (c.lines || []).filter(function (ln) { return ln.signal === i; }).map(function (ln) { return ln.name; });
+    var isRef = c.refs.indexOf(i) >= 0 || (c.lines || []).some(function (ln) { return (ln.refs || []).indexOf(i) >= 0; });
+    var tag = many && on.length ? ' (signal: ' + on.join(', ') + ')' : (i === c.signal ? ' (signal)' : (isRef ? ' (reference)' : ''));
     return el('tr', null, cols.map(function (k) {
       var v = l[k[0]];
       if (k[0] === 'name') v = (v || '') + tag;
