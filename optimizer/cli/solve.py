@@ -164,6 +164,12 @@ def solve(study_path: str | Path, out: str | Path | None = None, method: str | N
     phases.start("front")
     front = build_front(problem, result, catalog, s)
     front["search"].update(table_summary(problem.table))
+    from strainline.optimizer.search.guard import guard_note
+
+    front["search"]["impedance_guard"] = guard_note(sp.study, catalog)
+    if problem.lines:      # several lines: every line's own table (line_table is the first line's)
+        front["search"]["line_tables"] = {sub.space.study.line.name: table_summary(sub.table)["line_table"]
+                                          for sub in problem.lines}
     from strainline.optimizer.inputs.catalog import study_catalog
 
     front["catalog"] = study_catalog(study, catalog)   # so `strainline report` rebuilds the same sheets

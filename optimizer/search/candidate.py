@@ -26,10 +26,12 @@ def candidate_stackup(space: Space, x: np.ndarray, name: str = "") -> Stackup:
     """
     d = space.decode(np.asarray(x, np.int64).reshape(1, -1))
     N, L = space.n_cu, space.n_layers
-    sig = int(d.signal[0])
+    # every copper layer that carries a line is a signal layer (several lines: :mod:`.linelayers`)
+    sigs = ({int(v) for v in space.slots(np.asarray(x, np.int64).reshape(1, -1))["signals"][0]}
+            if getattr(space, "multi", False) else {int(d.signal[0])})
     names = {0: "top cover film", 1: "top cover adhesive", L - 2: "bottom cover adhesive", L - 1: "bottom cover film"}
     for i in range(N):
-        names[space.cu_col(i)] = f"L{i + 1} {'signal' if i == sig else 'ground'}"
+        names[space.cu_col(i)] = f"L{i + 1} {'signal' if i in sigs else 'ground'}"
     for g in range(N - 1):
         a, f, b = space.gap_cols(g)
         names[a], names[f], names[b] = (f"gap {g + 1} adhesive (upper)", f"gap {g + 1} dielectric",

@@ -34,12 +34,23 @@ def _round(x: float, digits: int = 6) -> float | None:
     return float(f"{x:.{digits}g}")
 
 
-def _study_line(study: Mapping[str, Any]) -> Mapping[str, Any]:
-    line = study.get("line") if isinstance(study, Mapping) else None
+def _study_line(study: Mapping[str, Any], name: str | None = None) -> Mapping[str, Any]:
+    """The study's block of the line named ``name`` (``lines:`` entry), else its ``line:`` (or the
+    first ``lines:`` entry)."""
+    if not isinstance(study, Mapping):
+        return {}
+    many = study.get("lines")
+    if isinstance(many, list) and many:
+        for blk in many:
+            if isinstance(blk, Mapping) and name is not None and blk.get("name") == name:
+                return blk
+        return many[0] if isinstance(many[0], Mapping) else {}
+    line = study.get("line")
     return line if isinstance(line, Mapping) else {}
 
 
-def layered_section(cand: Mapping[str, Any], kind: str) -> dict[str, Any] | None:
+def layered_section(cand: Mapping[str, Any], kind: str,
+                    line: Mapping[str, Any] | None = None) -> dict[str, Any] | None:
     """The real layered cross-section of a candidate, from its own stack (``candidate["layers"]``).
 
     Independent of the line table: read from the stack as written to ``front.json`` (top to
@@ -50,7 +61,7 @@ def layered_section(cand: Mapping[str, Any], kind: str) -> dict[str, Any] | None
     is missing or has no plane for the line.
     """
     layers = cand.get("layers") or []
-    line = cand.get("line") or {}
+    line = line if line is not None else (cand.get("line") or {})
     cu = [i for i, lay in enumerate(layers) if lay.get("kind") == "copper"]
     layer_no = _num(line.get("layer"), 0.0)
     sig_no = int(layer_no) if math.isfinite(layer_no) else 0
@@ -88,10 +99,11 @@ def layered_section(cand: Mapping[str, Any], kind: str) -> dict[str, Any] | None
             "thickness_um": _num(layers[sig].get("thickness_um"))}
 
 
-def study_nominal_pct(front: Mapping[str, Any]) -> float:
+def study_nominal_pct(front: Mapping[str, Any], name: str | None = None) -> float:
     """The study's nominal impedance window, percent: ``line.nominal_error_pct``, else half the
-    tolerance (a percent, or a catalog tolerance class looked up in the default catalog)."""
-    line = _study_line(front.get("study", {}))
+    tolerance (a percent, or a catalog tolerance class looked up in the default catalog); of the
+    line named ``name`` in a study with several lines."""
+    line = _study_line(front.get("study", {}), name)
     v = _num(line.get("nominal_error_pct"))
     if math.isfinite(v):
         return v
@@ -145,7 +157,7 @@ def check_candidate(task: Mapping[str, Any]) -> dict[str, Any]:
     kind = task["kind"]
     pair = kind in PAIR_KINDS
     key = "z_diff_ohm" if pair else "z0_ohm"
-    out: dict[str, Any] = {"index": task["index"], key: None, "eps_eff": None, "width_um": None,
+    out: dict[str, Any] = {"index": task["index"], "line_index": task.get("line_index", 0), key: None, "eps_eff": None, "width_um": None,
                            "closed_form_error_pct": None, "error_estimate_pct": None,
                            "z_refined_ohm": None, "refined_ok": False,
                            "refined_width_in_range": False, "target_ohm": _round(task["target_ohm"]),

@@ -117,7 +117,8 @@ def line_view(space: Any, k: int) -> Any:
     else:
         sig_opts = tuple(sorted({int(s) for s in space.line_sig[:, k]}))
     gaps = tuple(g * UM for g in ln.gap_um) if ln.gap_um else (float("nan"),)
-    return dataclasses.replace(space, study=sub, sig_opts=sig_opts, gap_opts=gaps)
+    # the view is a one-line space: its slots come from the study's space (:func:`view_slots`)
+    return dataclasses.replace(space, study=sub, sig_opts=sig_opts, gap_opts=gaps, line_sig=None, line_cov=None)
 
 
 def view_slots(slots: dict[str, np.ndarray], k: int) -> dict[str, np.ndarray]:

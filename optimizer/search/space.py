@@ -280,6 +280,10 @@ def build_space(study: Study, catalog: Any) -> Space:
     catalog : Catalog
         The material catalog (``strainline.optimizer.inputs.catalog.load_catalog``).
     """
+    from strainline.optimizer.search.guard import apply_default_guard
+
+    # the impedance yield is the default guard when the catalog knows the tolerances (:mod:`.guard`)
+    study = apply_default_guard(study, catalog)
     st = study.stack
     N = st.copper_layers
     materials: list[Material] = []

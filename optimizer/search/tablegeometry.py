@@ -86,7 +86,11 @@ def _first_band(t: np.ndarray, v: np.ndarray) -> np.ndarray:
 
 
 def table_rows(space: Space) -> int:
-    """The table's row count from the option counts alone (nothing allocated; checked before building)."""
+    """The table's row count from the option counts alone (nothing allocated; checked before building);
+    with several lines, the rows of every line's table."""
+    if getattr(space, "multi", False):
+        from strainline.optimizer.search.linelayers import line_view
+        return sum(table_rows(line_view(space, k)) for k in range(len(space.study.lines)))
     return _enumerate(space, space.study.line.type, count_only=True)[2]
 
 

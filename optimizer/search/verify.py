@@ -67,7 +67,7 @@ Progress = Callable[[int, int], None]
 
 
 
-def study_target(front: Mapping[str, Any]) -> tuple[float, float, float]:
+def study_target(front: Mapping[str, Any], name: str | None = None) -> tuple[float, float, float]:
     """(target_ohm, width_min_um, width_max_um) from ``front["study"]``.
 
     Accepts the study's ``line`` block as the study file states it (``target_ohm``,
@@ -75,7 +75,7 @@ def study_target(front: Mapping[str, Any]) -> tuple[float, float, float]:
     ``nan`` (then the candidate's ``line.target_ohm``, or failing that its closed-form impedance,
     is the target, and the range is open).
     """
-    line = _study_line(front.get("study", {}))
+    line = _study_line(front.get("study", {}), name)
     target = _num(line.get("target_ohm"))
     wr = line.get("width_range_um")
     if isinstance(wr, (list, tuple)) and len(wr) == 2:
@@ -89,46 +89,49 @@ def build_tasks(front: Mapping[str, Any], target_ohm: float | None = None,
                 width_range_um: tuple[float, float] | None = None,
                 cells_per_feature: float = 3.0, tol_pct: float = 0.05,
                 nominal_error_pct: float | None = None) -> list[dict[str, Any]]:
-    """One plain-dict task per candidate (picklable; what the workers receive)."""
-    s_target, s_wmin, s_wmax = study_target(front)
-    nominal = study_nominal_pct(front) if nominal_error_pct is None else float(nominal_error_pct)
-    if target_ohm is not None:
-        s_target = float(target_ohm)
-    if width_range_um is not None:
-        s_wmin, s_wmax = float(width_range_um[0]), float(width_range_um[1])
+    """One plain-dict task per line of every candidate (picklable; what the workers receive)."""
     tasks = []
     for i, cand in enumerate(front.get("candidates", [])):
-        line = cand.get("line", {}) or {}
-        geo = line.get("geometry", {}) or {}
-        kind = str(line.get("type", ""))
-        pair = kind in PAIR_KINDS
-        z_cf = _num((line.get("closed_form") or {}).get("z_ohm"),
-                    _num(line.get("z_diff_ohm") if pair else line.get("z0_ohm")))
-        target = s_target
-        if not math.isfinite(target):
-            target = _num(line.get("target_ohm"), z_cf)
-        tasks.append({
-            "index": i,
-            "kind": kind,
-            "width_um": _num(line.get("width_um")),
-            "gap_um": _num(line.get("gap_um")),
-            "height_um": _num(geo.get("height_um")),
-            "height_top_um": _num(geo.get("height_top_um")),
-            "thickness_um": _num(geo.get("thickness_um")),
-            "er": _num(geo.get("er")),
-            "er_top": _num(geo.get("er_top")),
-            "cover_um": _num(geo.get("cover_um"), 0.0),
-            "cover_er": _num(geo.get("cover_er"), 1.0),
-            "bottom_ground": geo.get("bottom_ground") is not False,   # None/absent: backed
-            "z_closed_form_ohm": z_cf,
-            "target_ohm": target,
-            "width_min_um": s_wmin,
-            "width_max_um": s_wmax,
-            "cells_per_feature": float(cells_per_feature),
-            "tol_pct": float(tol_pct),
-            "nominal_error_pct": nominal,
-            "section": layered_section(cand, kind),
-        })
+        lines = cand.get("lines") or [cand.get("line", {}) or {}]
+        for k, line in enumerate(lines):
+            name = line.get("name") if isinstance(line, Mapping) else None
+            s_target, s_wmin, s_wmax = study_target(front, name)
+            nominal = study_nominal_pct(front, name) if nominal_error_pct is None else float(nominal_error_pct)
+            if target_ohm is not None:
+                s_target = float(target_ohm)
+            if width_range_um is not None:
+                s_wmin, s_wmax = float(width_range_um[0]), float(width_range_um[1])
+            geo = line.get("geometry", {}) or {}
+            kind = str(line.get("type", ""))
+            pair = kind in PAIR_KINDS
+            z_cf = _num((line.get("closed_form") or {}).get("z_ohm"),
+                        _num(line.get("z_diff_ohm") if pair else line.get("z0_ohm")))
+            target = s_target
+            if not math.isfinite(target):
+                target = _num(line.get("target_ohm"), z_cf)
+            tasks.append({
+                "index": i,
+                "line_index": k,
+                "kind": kind,
+                "width_um": _num(line.get("width_um")),
+                "gap_um": _num(line.get("gap_um")),
+                "height_um": _num(geo.get("height_um")),
+                "height_top_um": _num(geo.get("height_top_um")),
+                "thickness_um": _num(geo.get("thickness_um")),
+                "er": _num(geo.get("er")),
+                "er_top": _num(geo.get("er_top")),
+                "cover_um": _num(geo.get("cover_um"), 0.0),
+                "cover_er": _num(geo.get("cover_er"), 1.0),
+                "bottom_ground": geo.get("bottom_ground") is not False,   # None/absent: backed
+                "z_closed_form_ohm": z_cf,
+                "target_ohm": target,
+                "width_min_um": s_wmin,
+                "width_max_um": s_wmax,
+                "cells_per_feature": float(cells_per_feature),
+                "tol_pct": float(tol_pct),
+                "nominal_error_pct": nominal,
+                "section": layered_section(cand, kind, line),
+            })
     return tasks
 
 
@@ -227,11 +230,11 @@ def verify_front(front: dict, workers: int = 1, dask_address: str | None = None,
     tasks = build_tasks(out, target_ohm, width_range_um, cells_per_feature, tol_pct, nominal_error_pct)
     # candidates that share a line cross-section (same line in different stacks) are solved once
     unique: dict[tuple, dict] = {}
-    members: dict[int, list[int]] = {}
+    members: dict[tuple[int, int], list[tuple[int, int]]] = {}
     for task in tasks:
-        key = tuple((k, repr(v)) for k, v in sorted(task.items()) if k != "index")
+        key = tuple((k, repr(v)) for k, v in sorted(task.items()) if k not in ("index", "line_index"))
         first = unique.setdefault(key, task)
-        members.setdefault(first["index"], []).append(task["index"])
+        members.setdefault((first["index"], first["line_index"]), []).append((task["index"], task["line_index"]))
     tasks = list(unique.values())
     t0 = time.perf_counter()
     if dask_address:
@@ -240,21 +243,35 @@ def verify_front(front: dict, workers: int = 1, dask_address: str | None = None,
     else:
         backend = "processes" if workers > 1 and len(tasks) > 1 else "serial"
         results = _run_local(tasks, workers, progress)
-    checks: dict[int, dict] = {}
+    checks: dict[tuple[int, int], dict] = {}
     for r in results:
-        first = r.pop("index")
-        for i in members[first]:
-            checks[i] = copy.deepcopy(r)
+        first = (r.pop("index"), r.pop("line_index", 0))
+        for key in members[first]:
+            checks[key] = copy.deepcopy(r)
     seconds = time.perf_counter() - t0
     cands = out.get("candidates", [])
     for i, cand in enumerate(cands):
-        cand.setdefault("line", {})["field_check"] = checks[i]
+        if cand.get("lines"):
+            for k, line in enumerate(cand["lines"]):
+                line["field_check"] = checks[(i, k)]
+            cand["line"] = cand["lines"][0]
+        else:
+            cand.setdefault("line", {})["field_check"] = checks[(i, 0)]
     fc = [c for c in checks.values()]
-    failed = [c for c in cands if not c["line"]["field_check"]["passed"]]
+
+    def passed(c: Mapping[str, Any]) -> bool:       # a candidate holds when every line holds
+        return all(ln["field_check"]["passed"] for ln in (c.get("lines") or [c["line"]]))
+
+    def reasons(c: Mapping[str, Any]) -> list[str]:
+        many = len(c.get("lines") or []) > 1
+        return [(f"line {ln.get('name')}: " if many else "") + r
+                for ln in (c.get("lines") or [c["line"]]) for r in ln["field_check"]["reasons"]]
+
+    failed = [c for c in cands if not passed(c)]
     removed = []
     if failed and not keep_unverified:
-        removed = [{"id": c.get("id"), "reasons": c["line"]["field_check"]["reasons"]} for c in failed]
-        out["candidates"] = [c for c in cands if c["line"]["field_check"]["passed"]]
+        removed = [{"id": c.get("id"), "reasons": reasons(c)} for c in failed]
+        out["candidates"] = [c for c in cands if passed(c)]
     n_all = len(cands)
     if not failed:
         message = f"all {n_all} candidates passed field verification"
