@@ -167,6 +167,8 @@ def solve(study_path: str | Path, out: str | Path | None = None, method: str | N
     from strainline.optimizer.search.guard import guard_note
 
     front["search"]["impedance_guard"] = guard_note(sp.study, catalog)
+    # the nominal window each line was searched with (the guard may widen the file's default)
+    front["search"]["nominal_window_pct"] = {ln.name: round(100.0 * ln.nominal_error, 9) for ln in sp.study.lines}
     if problem.lines:      # several lines: every line's own table (line_table is the first line's)
         front["search"]["line_tables"] = {sub.space.study.line.name: table_summary(sub.table)["line_table"]
                                           for sub in problem.lines}

@@ -102,7 +102,13 @@ def layered_section(cand: Mapping[str, Any], kind: str,
 def study_nominal_pct(front: Mapping[str, Any], name: str | None = None) -> float:
     """The study's nominal impedance window, percent: ``line.nominal_error_pct``, else half the
     tolerance (a percent, or a catalog tolerance class looked up in the default catalog); of the
-    line named ``name`` in a study with several lines."""
+    line named ``name`` in a study with several lines. The window the search recorded
+    (``search.nominal_window_pct``, after the default guard) comes first."""
+    searched = (front.get("search") or {}).get("nominal_window_pct") if isinstance(front, Mapping) else None
+    if isinstance(searched, Mapping) and searched:     # the window the search used (after the guard)
+        v = _num(searched.get(name) if name in searched else next(iter(searched.values())))
+        if math.isfinite(v):
+            return v
     line = _study_line(front.get("study", {}), name)
     v = _num(line.get("nominal_error_pct"))
     if math.isfinite(v):
