@@ -8,19 +8,16 @@ Pipeline per batch (a row is a candidate, no per-candidate Python loop):
    copper faces -- the same transformed-section model and exact strain as
    :func:`strainline.models.bending.bend_strains`, which the general path runs on the decoded
    (n, L) layer arrays (:meth:`Space.mechanics`) and a test compares to 1e-12;
-3. the line: width and loss depend on only a few choices (signal position, signal copper, the
-   dielectric builds next to the trace, the cover, the pair gap), so every distinct line geometry
-   of the study is solved **once** (:class:`LineTable`, one :func:`solve_width` batch) and a
-   candidate gathers its row by index;
+3. the line: every distinct line geometry is solved **once** (:class:`LineTable`: signal position
+   and copper, the dielectric builds next to the trace, the cover, the gap); a candidate gathers its row;
 4. objectives and normalized inequality constraints ``g <= 0`` (pymoo convention).
-
 Several bend zones (``study.bends``): step 2 and the mechanical constraints run once per zone (a
 loop over the few zones, vectorized over the candidates); each strain, life and material column is
 the worst zone's, so it holds only when every zone holds. The strain and life objectives read the
 zone ``strain_bend`` names, else the worst zone (:func:`.zones.zone_pick`).
+Row blocks of :data:`BLOCK` keep the temporaries in cache; line columns are precomputed per row.
 
-Batches are evaluated in row blocks of :data:`BLOCK` so the temporaries stay in cache; the line
-constraint columns and the quantized loss are precomputed per line-table row.
+Several lines (``study.lines``): one table per line, the worst line's columns (:mod:`.multiline`).
 
 Constraint columns (each is a relative excess over its limit, so 0.1 means 10 % over):
 
@@ -75,9 +72,7 @@ class Problem:
     #: the zone has no life limit); None when no zone has one.
     allowed_range: list | None = None
     fast: dict[str, np.ndarray] | None = None  # per-option block sums and per-row line figures (:func:`_fast_tables`)
-    #: Kept for callers of the earlier interface: an unbonded region always takes the layer path,
-    #: because the material limits need every layer's strain about its own leaf's axis
-    #: (:meth:`copper_strains` still serves both regions and is tested against ``bend_strains``).
+    #: Unused (earlier interface): an unbonded region always takes the layer path (leaf axes).
     fast_unbonded: bool = False
     #: The catalog the table was built with (fabrication tolerances for the impedance yield).
     catalog: Any = None
@@ -189,7 +184,16 @@ class Problem:
                     if want_cycles:
                         out.cycles[ok] = full.cycles
                 return out
-            return self._evaluate(x, want_cycles, slots)
+            e = self._evaluate(x, want_cycles, slots)
+            if not ok.all():
+                # the same result as the pruned branch, whatever share of the block passes: a
+                # line-failing row keeps only its line columns (counts do not depend on the split)
+                bad = ~ok
+                e.F[bad] = np.nan
+                lim = self._line_g(rows[bad])
+                for k, c in enumerate(self.constraint_names):
+                    e.G[bad, k] = lim[c] if c in lim else 0.0
+            return e
         return self._evaluate(x, want_cycles)
 
     def _line_constraints(self, row: np.ndarray) -> dict[str, np.ndarray]:
