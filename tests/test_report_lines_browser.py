@@ -221,3 +221,34 @@ def _open_sheet(ctx, url):
     page.wait_for_load_state("load")
     page.wait_for_timeout(200)
     return page, log
+
+
+def test_a_field_check_mismatch_on_any_line_is_highlighted(browser_ctx, solved, tmp_path):
+    """Test fixture: the third line of one candidate gets a field check 19.6 % below its 100-ohm target,
+    outside its +/-10 % tolerance (the study's lines[2].tolerance); the other lines get none."""
+    import copy
+
+    front = copy.deepcopy(solved)
+    k = 1
+    ln = front["candidates"][k]["lines"][2]
+    assert ln["target_ohm"] == 100 and ln["type"] == "coupled-microstrip"
+    ln["field_check"] = {"z_diff_ohm": 80.4, "z0_ohm": 41.0, "closed_form_error_pct": 24.4,
+                         "width_um": ln["width_um"] * 0.8, "refined_ok": True, "refined_width_in_range": True}
+    out = _report(front, tmp_path / "field")
+    page, log = _open(browser_ctx, (out / "report.html").as_uri())
+    try:
+        flagged = page.evaluate("[...document.querySelectorAll('#cand-table tbody tr.mismatch')]"
+                                ".map(r => Number(r.dataset.i))")
+        assert flagged == [k]
+        page.evaluate(f"window.strainline.select({k})")
+        assert page.locator("#field-flag").is_visible()
+        assert f"line {ln['name']}: field-solved impedance -19.6 % off target" in page.inner_text("#field-flag")
+        rows = page.evaluate("[...document.querySelectorAll('#line-table tbody tr')].map(r => [r.dataset.line, "
+                             "r.classList.contains('mismatch'), r.lastElementChild.textContent])")
+        assert [(r[0], r[1]) for r in rows] == [(n, n == ln["name"]) for n in NAMES]
+        assert rows[2][2].startswith("MISMATCH field-solved impedance -19.6 % off target (tolerance +/-10 %)")
+    finally:
+        page.close()
+    assert log["errors"] == []
+    sheet = (out / "handoff" / f"{front['candidates'][k]['id']}.csv").read_text(encoding="utf-8")
+    assert "lines[2].field_check.z_diff_ohm" in sheet and ",80.4," in sheet

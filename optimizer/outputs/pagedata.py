@@ -20,7 +20,7 @@ from strainline.optimizer.outputs.formatting import (
     study_value,
 )
 from strainline.optimizer.outputs.diagnosis import nearest_candidates
-from strainline.optimizer.outputs.linesview import line_summary, lines_of
+from strainline.optimizer.outputs.linesview import line_name, line_summary, lines_of, study_line
 from strainline.optimizer.outputs.stack import (
     FAMILY_COLOURS,
     family_of,
@@ -219,6 +219,7 @@ def line_views(cand: Mapping[str, Any], front: Mapping[str, Any], catalog: Any |
         v = line_summary(ln, k, front, catalog)
         v["signal"] = signal_index({"line": ln, "layers": cand.get("layers") or []})
         v["refs"] = reference_indices({"line": ln, "layers": cand.get("layers") or []})
+        v["field"] = _line_flag(ln, ln.get("field_check"), front, catalog, k)
         out.append(v)
     return out
 
@@ -232,17 +233,36 @@ def field_flag(cand: Mapping[str, Any], front: Mapping[str, Any], catalog: Any |
     ``mismatch`` is true when the field-solved impedance at the designed width lies outside target +/-
     tolerance (the closed-form design would miss on its coupon), or the check says the refined width
     fails; ``error_pct`` is the decided impedance's error (field table or closed form,
-    ``line.impedance_model``) against the independent field solution.
+    ``line.impedance_model``) against the independent field solution. With several lines every line's
+    check is judged (against its own tolerance): the flag is the first mismatching line's (else the first
+    line's), its text names the line, and ``lines`` lists the names of every mismatching line.
     """
+    lines = lines_of(cand)
+    flags = []
+    for k, ln in enumerate(lines):
+        fc = ln.get("field_check") or (cand.get("field_check") if k == 0 else None)
+        f = _line_flag(ln, fc, front, catalog, k)
+        if f is not None:
+            flags.append((line_name(ln, k), f))
+    if not flags:
+        return None
+    bad = [(n, f) for n, f in flags if f["mismatch"]]
+    name, flag = (bad or flags)[0]
+    if len(lines) > 1:
+        flag = dict(flag, text=f"line {name}: {flag['text']}" + "".join(
+            f"; line {n}: {f['text']}" for n, f in bad[1:]))
+    return dict(flag, lines=[n for n, _ in bad])
+
+
+def _line_flag(line: Mapping[str, Any], fc: Any, front: Mapping[str, Any], catalog: Any | None,
+               k: int) -> dict[str, Any] | None:
     from strainline.optimizer.outputs.sheetlookup import impedance_tolerance
 
-    line = cand.get("line") if isinstance(cand.get("line"), Mapping) else {}
-    fc = line.get("field_check") or cand.get("field_check")
     if not isinstance(fc, Mapping):
         return None
     if fc.get("error"):
         return {"mismatch": True, "error_pct": None, "tolerance_pct": None, "text": f"field check not possible: {fc['error']}"}
-    tol = impedance_tolerance(front, line, catalog)[0]
+    tol = impedance_tolerance(front, line, catalog, study_line(front, k, line.get("name")))[0]
     z = fc.get("z_diff_ohm") if is_num(fc.get("z_diff_ohm")) else fc.get("z0_ohm")
     target = line.get("target_ohm") if is_num(line.get("target_ohm")) else fc.get("target_ohm")
     off = 100.0 * (z / target - 1.0) if is_num(z) and is_num(target) and target else None

@@ -147,6 +147,8 @@ def build_sheet(cand: Mapping[str, Any], front: Mapping[str, Any], catalog: Any 
     other_lines(sheet, cand, front, catalog)
     if len([ln for ln in cand.get("lines") or [] if isinstance(ln, Mapping)]) > 1:
         sheet.first_line = line_name(cand["lines"][0], 0)
+    if len([b for b in cand.get("bends") or [] if isinstance(b, Mapping)]) > 1:
+        sheet.bend_zone = str(bend.get("name") or "")
     bend_rows(sheet, cand, front)
     zone_rows(sheet, cand)
     drawing_rows(sheet, cand, front)

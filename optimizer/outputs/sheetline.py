@@ -224,6 +224,17 @@ def other_lines(sheet: Sheet, cand: Mapping[str, Any], front: Mapping[str, Any] 
             add("line loss" + (f" at {fmt(f)} GHz" if is_num(f) else " (frequency not stated)") + " (estimate)",
                 ln["loss_db_per_m"], "dB/m", "loss_db_per_m")
         _line_figures(sheet, "lines", name, ln, key, "", front, k)
+        fc = ln.get("field_check")
+        if isinstance(fc, Mapping):         # the field-solver check of this line (strainline --verify)
+            field = ln.get("impedance_model") == "field"
+            for fk, lab, unit in (("z_diff_ohm" if pair else "z0_ohm", "field-solved impedance at the designed width", "ohm"),
+                                  ("closed_form_error_pct", "search's impedance against this field solution" if field
+                                   else "closed-form error against the field solution", "%"),
+                                  ("width_um", "field-refined width for the target", "um"),
+                                  ("refined_ok", "refined width meets the impedance tolerance", ""),
+                                  ("error", "field check not possible", "")):
+                if fc.get(fk) is not None:
+                    add(lab, fc[fk], unit, f"field_check.{fk}")
         rel, src_w = width_tolerance(ln.get("copper_weight"), catalog)
         w = ln.get("width_um")
         if rel is not None and is_num(w):

@@ -47,6 +47,7 @@ class Sheet:
     unbonded: bool = False
     bonded_build: list[dict[str, str]] = field(default_factory=list)  # unbonded: the build outside the bend
     first_line: str = ""     # the first line's name when the candidate carries several lines (else empty)
+    bend_zone: str = ""      # the name of the zone front.json's bend holds when there are several zones
 
     def add(self, *args: Any, **kwargs: Any) -> Row:
         row = Row(*args, **kwargs)

@@ -354,8 +354,10 @@ function drawLines(c) {
     'loss (dB/m)'];
   if (withLength) head.push('length (mm)', 'insertion loss (dB)');
   if (withYield) head.push('impedance yield', 'dominant tolerance');
+  var withField = lines.some(function (ln) { return ln.field; });
+  if (withField) head.push('field check');
   fill('line-table', lines.length ? [el('thead', null, el('tr', null, head.map(function (t, k) {
-    return el('th', {'class': k < 3 || t === 'dominant tolerance' ? 't' : ''}, t); }))),
+    return el('th', {'class': k < 3 || t === 'dominant tolerance' || t === 'field check' ? 't' : ''}, t); }))),
     el('tbody', null, lines.map(function (ln) {
       var cells = [el('td', {'class': 't'}, ln.name), el('td', {'class': 't'}, fmt(ln.type)), el('td', {'class': 't'}, fmt(ln.layer)),
         el('td', null, fmt(ln.width_um) + (typeof ln.gap_um === 'number' ? ' / ' + fmt(ln.gap_um) : '')),
@@ -368,7 +370,8 @@ function drawLines(c) {
         'loss per metre x length' : ''}, fmt(ln.insertion_loss_db)));
       if (withYield) cells.push(el('td', {'class': ln.yield ? 'yield' : ''}, ln.yield ? yieldText(ln.yield) : '-'),
         el('td', {'class': 't'}, ln.yield ? dominantText(ln.yield) : '-'));
-      return el('tr', {'data-line': ln.name}, cells);
+      if (withField) cells.push(el('td', {'class': 't'}, ln.field ? (ln.field.mismatch ? 'MISMATCH ' : 'ok ') + ln.field.text : '-'));
+      return el('tr', {'data-line': ln.name, 'class': ln.field && ln.field.mismatch ? 'mismatch' : ''}, cells);
     }))] : []);
 }
 
