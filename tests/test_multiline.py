@@ -262,3 +262,20 @@ def test_bad_lines_are_one_line_errors(edit, path, words):
         validate_study(data, CAT, file="s.yaml")
     msg = str(exc.value)
     assert path in msg and words in msg and "\n" not in msg
+
+
+def test_study_time_limit_sends_auto_to_the_evolutionary_search(tmp_path, run_cli):
+    # the study's search.time_limit_s is the auto limit when --time-limit is not given
+    data = yaml.safe_load(DOCK.read_text())
+    data["catalog"] = str((DOCK.parent / data["catalog"]).resolve())
+    data["search"].update(time_limit_s=1e-6, budget=300, impedance="closed-form")
+    p = tmp_path / "s.yaml"
+    p.write_text(yaml.safe_dump(data, sort_keys=False))
+    code, _, err = run_cli("solve", p, "--out", tmp_path / "o", "--quiet", "--workers", "1")
+    assert code == 0, err
+    s = json.loads((tmp_path / "o" / "front.json").read_text())["search"]
+    assert s["method"] == "evolutionary" and s["time_limit_s"] == 1e-6
+    data["search"]["time_limit_s"] = 0
+    p.write_text(yaml.safe_dump(data, sort_keys=False))
+    with pytest.raises(StudyError, match="search.time_limit_s"):
+        load_study(p)

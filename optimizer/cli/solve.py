@@ -144,6 +144,8 @@ def solve(study_path: str | Path, out: str | Path | None = None, method: str | N
     if b < 100:
         raise InputError(f"{b} is out of range; allowed range [100, inf)", "--budget")
     s = study.search.seed if seed is None else seed
+    if time_limit_s is None:
+        time_limit_s = study.search.time_limit_s          # the study's, else the search default
     progress = phases.start("search")
 
     def evaluate(x):

@@ -291,6 +291,9 @@ class SearchModel(Base):
     impedance: K.choice(("field", "closed-form"), description=(
         "what decides the line's impedance in the search: field (a field-accurate line table, the default) or "
         "closed-form (the published equations alone)")) = "field"
+    time_limit_s: K.num(0.0, 1e7, lo_open=True, description=(
+        "auto: enumerate every candidate when the projected exhaustive time is at most this many seconds, "
+        "else run the evolutionary search (default 60; --time-limit wins)")) = None
 
 
 class StudyModel(Base):
@@ -394,7 +397,7 @@ def build_study(data: Any, catalog: Any, file: str = "", folder: Path | None = N
         lvals["min_cycles"] = bd.cycles
     limits = S.Limits(**lvals)
     se = m.search
-    search = S.SearchSpec(se.method, se.budget, se.seed, se.population, se.impedance)
+    search = S.SearchSpec(se.method, se.budget, se.seed, se.population, se.impedance, se.time_limit_s)
     catalog_path = None
     if m.catalog is not None:
         p = Path(m.catalog).expanduser()

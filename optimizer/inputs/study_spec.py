@@ -72,7 +72,7 @@ _STACK_KEYS = (
 )
 _LIMIT_KEYS = ("total_thickness_um", "peak_strain_pct", "signal_strain_pct", "min_cycles", "loss_db_per_m",
                "elongation_fraction", "min_yield_pct")
-_SEARCH_KEYS = ("method", "budget", "seed", "population", "impedance")
+_SEARCH_KEYS = ("method", "budget", "seed", "population", "impedance", "time_limit_s")
 #: Fewest copper layers each line type needs: an outer line has its plane in the adjacent copper
 #: (conductor-backed coplanar included); a stripline sits on an inner layer between two planes.
 MIN_COPPER: dict[str, int] = {"microstrip": 2, "coupled-microstrip": 2, "coplanar": 2, "stripline": 3,
@@ -172,6 +172,9 @@ class SearchSpec:
     population: int = 100
     #: How the line table solves impedance: "field" (field-solver corrected) or "closed-form".
     impedance: str = "field"
+    #: ``auto`` enumerates when the projected exhaustive time is at most this, seconds (None: the
+    #: command line's ``--time-limit``, default 60 s).
+    time_limit_s: float | None = None
 
 
 @dataclass(frozen=True)
