@@ -179,3 +179,20 @@ def test_diagnosis_lists_the_nearest_candidates_with_their_misses(which, request
         assert n["layers"][-1]["bottom_um"] == pytest.approx(0.0, abs=1e-9)
         for a, b in zip(n["layers"], n["layers"][1:]):
             assert a["bottom_um"] == pytest.approx(b["top_um"], abs=1e-9)
+
+
+def test_terminal_table_gives_every_line_a_column(front, solved):
+    from strainline.optimizer.outputs.frontfiles import format_table
+
+    text = format_table(front, limit=4).splitlines()
+    head = text[1].split()
+    assert [h for h in head if h in NAMES] == list(NAMES)
+    for row, cand in zip(text[2:6], front["candidates"]):
+        assert row.split()[0] == cand["id"]
+        cells = re.findall(r"L(\d) ([\d.]+)(?:/([\d.]+))? ([\d.]+)", row)
+        assert len(cells) == len(cand["lines"])
+        for (layer, width, gap, z), ln in zip(cells, cand["lines"]):     # layer, width[/gap], impedance, rounded
+            assert int(layer) == ln["layer"] and abs(float(width) - ln["width_um"]) <= 0.05
+            assert (gap == "") == (ln["gap_um"] is None) and abs(float(z) - _z(ln)) <= 0.05
+    one = format_table(solved, limit=2).splitlines()[1].split()     # one line: the columns as before
+    assert one[-7:] == ["layer", "width_um", "gap_um", "z_ohm", "thick_um", "peak_%", "cycles"]

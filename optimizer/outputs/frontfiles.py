@@ -109,23 +109,36 @@ def format_table(front: dict[str, Any], limit: int = 25) -> str:
                 f"{k.replace('_', ' ')} {v:,}" for k, v in sorted(counts.items(), key=lambda kv: -kv[1]) if v))
         return "\n".join(lines)
     okeys = list(cands[0]["objectives"])
-    head = ["id"] + okeys + ["layer", "width_um", "gap_um", "z_ohm", "thick_um", "peak_%", "cycles"]
+    names = [ln.get("name") or f"line {k + 1}" for k, ln in enumerate(cands[0].get("lines") or [])]
+    many = len(names) > 1          # several lines: one column per line, "layer width/gap impedance"
+    head = ["id"] + okeys + ([str(n) for n in names] if many else ["layer", "width_um", "gap_um", "z_ohm"]) + [
+        "thick_um", "peak_%", "cycles"]
     table = [head]
     for c in cands[:limit]:
         ln = c["line"]
         z = ln["z_diff_ohm"] if ln["z_diff_ohm"] is not None else ln["z0_ohm"]
         cyc = c["bend"]["cycles_to_failure"]
-        row = [c["id"]] + [_fmt(c["objectives"][k]) for k in okeys] + [
-            f"L{ln['layer']}", _fmt(ln["width_um"]), _fmt(ln["gap_um"]), _fmt(z),
+        if many:
+            cells = [f"L{x['layer']} {_fmt(x['width_um'])}" + (f"/{_fmt(x['gap_um'])}" if x.get("gap_um") is not None
+                                                              else "") + f" {_fmt(_z(x))}" for x in c["lines"]]
+        else:
+            cells = [f"L{ln['layer']}", _fmt(ln["width_um"]), _fmt(ln["gap_um"]), _fmt(z)]
+        row = [c["id"]] + [_fmt(c["objectives"][k]) for k in okeys] + cells + [
             _fmt(c["bend"]["total_thickness_um"]), _fmt(c["bend"]["peak_copper_strain_pct"]),
             "-" if cyc is None else _sig3(cyc)]
         table.append(row)
     widths = [max(len(r[i]) for r in table) for i in range(len(head))]
     for r in table:
         lines.append("  ".join(v.rjust(w) for v, w in zip(r, widths)))
+    if many:
+        lines.append("each line: copper layer, width[/gap] um, impedance ohm (Z0, or Zdiff for a pair)")
     if len(cands) > limit:
         lines.append(f"... {len(cands) - limit} more in front.json / front.csv")
     return "\n".join(lines)
+
+
+def _z(line: dict[str, Any]) -> Any:
+    return line["z_diff_ohm"] if line.get("z_diff_ohm") is not None else line.get("z0_ohm")
 
 
 def _sig3(v: float) -> str:
