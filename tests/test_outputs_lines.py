@@ -196,3 +196,33 @@ def test_terminal_table_gives_every_line_a_column(front, solved):
             assert (gap == "") == (ln["gap_um"] is None) and abs(float(z) - _z(ln)) <= 0.05
     one = format_table(solved, limit=2).splitlines()[1].split()     # one line: the columns as before
     assert one[-7:] == ["layer", "width_um", "gap_um", "z_ohm", "thick_um", "peak_%", "cycles"]
+
+
+def test_each_zone_marks_its_own_strain_limit(front):
+    """The fold (install) marks about 2 % (common practice, no source); the hinge (dynamic, its own cycles,
+    flat-to-bent so range = peak) marks the strain range Engelmaier's equation allows for those cycles with
+    the weakest copper foil of the candidate, written out here: range = N^-0.6 Df^0.75 + 0.9 (Su/E)
+    [exp(Df)/0.36]^(0.1785 log10(1e5/N)) (Engelmaier, ASTM STP 736, 1981; IPC-TM-650 2.4.2.1 form, from memory)."""
+    import math
+
+    from strainline.optimizer.outputs.frontcheck import try_catalog
+
+    cat = try_catalog(front)
+    data = page_data(front, cat)
+    zones = front["candidates"][0]["bends"]
+    assert [z["use"] for z in zones] == ["install", "dynamic"]
+    n = zones[1]["required_cycles"]
+    assert n == 2000
+    for view, cand in zip(data["candidates"], front["candidates"]):
+        fold, hinge = view["zone_limits"]
+        assert fold["pct"] == pytest.approx(2.0) and "common practice, no source" in fold["basis"]
+        allowed = []
+        for lay in cand["layers"]:
+            if lay["kind"] != "copper":
+                continue
+            foil = cat.foils[lay["material"]]
+            df, su = foil.fatigue_ductility, foil.tensile_strength_pa
+            e = float(lay.get("modulus_gpa") or foil.modulus_pa / 1e9) * 1e9
+            allowed.append(n ** -0.6 * df ** 0.75 + 0.9 * su / e * (math.exp(df) / 0.36) ** (0.1785 * math.log10(1e5 / n)))
+        assert hinge["pct"] == pytest.approx(100 * min(allowed), rel=1e-9)
+        assert "Engelmaier" in hinge["basis"]

@@ -133,6 +133,14 @@ def test_every_line_its_yield_and_dominant_tolerance_in_the_panel(browser_ctx, s
             # every zone: a button and a table row each
             assert page.locator("#zone-buttons button").all_inner_texts() == [z["name"] for z in cand["bends"]]
             assert [r[0] for r in _cells(page, "#zone-table")] == [z["name"] for z in cand["bends"]]
+            page.click("#zone-buttons button:has-text('fold')")      # the install fold: its own limit, about 2 %
+            lim = page.evaluate("document.getElementById('strain').layout.annotations"
+                                ".filter(a => /strain limit/.test(a.text)).map(a => a.text)")
+            assert lim == ["strain limit +/-2 %"]
+            xs = page.evaluate("document.getElementById('strain').data.map(t => t.x)")
+            fold = cand["bends"][0]
+            assert xs == [[p["strain_bottom_pct"], p["strain_top_pct"]] for p, lay in zip(fold["profile"], cand["layers"])
+                          if lay["thickness_um"] > 0 and lay["kind"] != "air-gap"]
         # the candidate table: each line's yield and dominant tolerance as columns
         heads = page.evaluate("[...document.querySelectorAll('#cand-table thead th')].map(t => t.textContent)")
         for name in NAMES:

@@ -97,14 +97,16 @@ def strain_limit_pct(front: Mapping[str, Any]) -> float | None:
     return float(v) if is_num(v) else None
 
 
-def strain_limits(front: Mapping[str, Any], catalog: Any | None) -> tuple[list[float | None], str]:
+def strain_limits(front: Mapping[str, Any], catalog: Any | None, zone: int | None = None
+                  ) -> tuple[list[float | None], str]:
     """Per candidate, the copper strain limit (percent) to mark on its strain profile, and its basis.
 
     The study's own ``limits.peak_strain_pct`` when it gives one. Else, for dynamic use with a cycle
     count, the peak strain whose Engelmaier strain range (IPC-TM-650 2.4.2.1 form, as in
     :func:`strainline.models.fatigue.engelmaier_strain_range`) gives that many cycles for the weakest
     copper foil of the candidate (range = peak for flat-to-bent motion, 2 x peak when reversed). Else, for
-    an install bend, about 2 % (common practice, no source).
+    an install bend, about 2 % (common practice, no source). ``zone`` picks a bend zone (``bends[zone]``:
+    its own use, cycles and motion) instead of the zone ``bend`` holds.
     """
     cands = front.get("candidates") or []
     given = strain_limit_pct(front)
@@ -113,10 +115,16 @@ def strain_limits(front: Mapping[str, Any], catalog: Any | None) -> tuple[list[f
     use = study_value(front, "bend", "use")
     cycles = study_value(front, "bend", "cycles") or study_value(front, "limits", "min_cycles")
     motion = study_value(front, "bend", "motion") or "flat-to-bent"
-    if cands and isinstance(cands[0].get("bend"), Mapping):
-        use = cands[0]["bend"].get("use", use)
-        cycles = cands[0]["bend"].get("required_cycles", cycles)
-        motion = cands[0]["bend"].get("motion", motion)
+    bend = cands[0].get("bend") if cands else None
+    if cands and zone is not None:
+        bends = cands[0].get("bends") or []
+        bend = bends[zone] if 0 <= zone < len(bends) else None
+        if isinstance(bend, Mapping):
+            cycles = None            # the zone's own requirement, not the study's first bend
+    if isinstance(bend, Mapping):
+        use = bend.get("use", use)
+        cycles = bend.get("required_cycles", cycles)
+        motion = bend.get("motion", motion)
     from strainline.models import rules
 
     if use == "dynamic" and is_num(cycles) and catalog is not None:
@@ -158,8 +166,10 @@ def _infeasible_message(front: Mapping[str, Any]) -> str:
 def page_data(front: Mapping[str, Any], catalog: Any | None) -> dict[str, Any]:
     cands = front["candidates"]
     limits, limit_basis = strain_limits(front, catalog)
+    nzones = min((len(c.get("bends") or []) for c in cands), default=0)
+    zone_limits = [strain_limits(front, catalog, z) for z in range(nzones)] if nzones > 1 else []
     view = []
-    for c, lim in zip(cands, limits):
+    for i, (c, lim) in enumerate(zip(cands, limits)):
         layers = c["layers"]
         hts = layer_heights(layers)
         figures = dict(c["objectives"])
@@ -174,6 +184,7 @@ def page_data(front: Mapping[str, Any], catalog: Any | None) -> dict[str, Any]:
                             fill_family=fill_family(lay, catalog))
                        for lay, (b, t) in zip(layers, hts)],
             "strain_limit_pct": lim,
+            "zone_limits": [{"pct": zl[0][i], "basis": zl[1]} for zl in zone_limits],
             "signal": signal_index(c),
             "refs": reference_indices(c),
             "findings": findings_of(c),

@@ -309,7 +309,9 @@ function zoneView(c, z) {
   // the candidate as bent in zone z (its own strain profile and neutral axes); null z: the zone front.json shows
   var b = z === null || z === undefined ? null : c.bends[z];
   if (!b || !Array.isArray(b.profile) || b.profile.length !== c.layers.length) return c;
-  return {id: c.id + ' in ' + b.name, signal: c.signal, bend: b, strain_limit_pct: c.strain_limit_pct,
+  var zl = (c.zone_limits || [])[z];            // the zone's own strain limit (its use, cycles and motion)
+  return {id: c.id + ' in ' + b.name, signal: c.signal, bend: b, strain_limit_pct: zl ? zl.pct : c.strain_limit_pct,
+    strain_limit_basis: zl ? zl.basis : null,
     layers: c.layers.map(function (l, i) {
       var p = b.profile[i];
       return Object.assign({}, l, {strain_top_pct: p.strain_top_pct, strain_bottom_pct: p.strain_bottom_pct});
@@ -393,7 +395,7 @@ function drawStrain(c) {
       shapes.push({type: 'line', x0: x, x1: x, y0: 0, y1: total, line: {color: '#c0392b', width: 1.2, dash: 'dot'}});
     });
     anns.push({x: lim, y: total, text: 'strain limit +/-' + efmt(lim, 3) + ' %', showarrow: false, xanchor: 'right',
-      yanchor: 'bottom', font: {size: 11, color: '#c0392b'}, hovertext: esc(D.strain_limit_basis)});
+      yanchor: 'bottom', font: {size: 11, color: '#c0392b'}, hovertext: esc(c.strain_limit_basis || D.strain_limit_basis)});
   }
   L.forEach(function (l) {
     if (l.kind !== 'air-gap') return;
