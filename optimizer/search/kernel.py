@@ -192,8 +192,96 @@ def _rows(lo, hi, cu, film, adh, place, ct_, cb_, cov, leaves,
         ratio_out[r] = worst
 
 
+def _rows_bonded(lo, hi, cu, film, adh, place, ct_, cb_, cov,
+                 cu_t, cu_E, fill, gT, gS, gM, gyb, gyt, ginv,
+                 n_adh, n_cov, stiff, radius, inside_bottom, total_out, peak_out, ratio_out):
+    """Bonded candidates ``lo:hi`` from per-option group sums (:func:`.faststrain.fast_tables`):
+    a cover or gap contributes its thickness ``T``, stiffness ``S = sum E t`` and first moment
+    ``M`` about its own bottom face; rows of ``gT``... are the bottom covers (``n_cov``), the top
+    covers (``n_cov``), then the gap codes; ``gyb``, ``gyt``, ``ginv`` (rows, 3) give every column's
+    bottom and top height in its group and its inverse elongation (0 for an empty column)."""
+    N = cu.shape[0]
+    G = N - 1
+    ybot = np.zeros(N)
+    tcu = np.zeros(N)
+    base = np.zeros(N + 1)                       # bottom height of each dielectric group
+    code = np.zeros(N + 1, np.int64)             # its row in the group tables
+    for r in range(lo, hi):
+        a = ct_[r]
+        b = cb_[r]
+        y = gT[b]
+        S = gS[b]
+        M = gM[b]
+        base[0] = 0.0
+        code[0] = b
+        dn = b                                   # fill-table column of the neighbour below copper i
+        for i in range(N - 1, -1, -1):           # bottom up: copper i, then the group above it
+            if i == 0:
+                gc = 0
+                above = a
+                grow = n_cov + a
+            else:
+                gc = (film[i - 1, r] * n_adh + adh[i - 1, r]) * 3 + place[i - 1, r]
+                above = n_cov + gc
+                grow = 2 * n_cov + gc
+            k = cu[i, r]
+            t = cu_t[k]
+            f = fill[above, dn]
+            st = cov[i, r] * (cu_E[k] - f) + f      # Voigt effective modulus ...
+            st *= t                                 # ... times thickness
+            S += st
+            M += st * (y + 0.5 * t)
+            ybot[i] = y
+            tcu[i] = t
+            y = y + t
+            base[N - i] = y
+            code[N - i] = grow
+            sg = gS[grow]
+            S += sg
+            M += sg * y
+            M += gM[grow]
+            y += gT[grow]
+            dn = n_cov + gc
+        total_out[r] = y
+        if stiff or S > 0.0:
+            na = M / S
+        else:
+            na = 0.5 * y
+        den = (radius + na) if inside_bottom else (radius + y - na)
+        absk = abs(1.0 / den)
+        for i in range(N):
+            p = ybot[i] - na
+            q = p + tcu[i]
+            p = abs(p)
+            q = abs(q)
+            peak_out[i, r] = (p if p > q else q) * absk
+        worst = 0.0
+        for g in range(N + 1):
+            e = base[g] - na
+            row = code[g]
+            for c in range(3):
+                v = e + gyt[row, c]
+                w = -(e + gyb[row, c])
+                v = (v if v > w else w) * ginv[row, c]
+                if v > worst:
+                    worst = v
+        ratio_out[r] = worst * absk
+
+
 if numba is not None:
     _rows_jit = njit(cache=True, nogil=True)(_rows)
+    _bonded_jit = njit(cache=True, nogil=True)(_rows_bonded)
+
+    @njit(cache=True, nogil=True)
+    def _serial_bonded(*args):  # pragma: no cover - compiled
+        n = args[0].shape[1]
+        _bonded_jit(0, n, *args)
+
+    @njit(cache=True, nogil=True, parallel=True)
+    def _parallel_bonded(*args):  # pragma: no cover - compiled
+        n = args[0].shape[1]
+        for k in prange((n + CHUNK - 1) // CHUNK):
+            _bonded_jit(k * CHUNK, min(n, (k + 1) * CHUNK), *args)
 
     @njit(cache=True, nogil=True)
     def _serial(*args):  # pragma: no cover - compiled
@@ -207,19 +295,37 @@ if numba is not None:
             _rows_jit(k * CHUNK, min(n, (k + 1) * CHUNK), *args)
 
 
-def _tables(problem: Any) -> tuple:
-    """The option tables the kernel reads (contiguous copies of ``space.blocks``), cached on the
-    problem."""
+def _tables(problem: Any) -> dict:
+    """The option tables the kernels read, cached on the problem: contiguous copies of
+    ``space.blocks`` (layer path) and the group sums of :func:`.faststrain.fast_tables` stacked as
+    bottom covers, top covers, gaps (bonded path)."""
     sp = problem.space
     got = getattr(problem, "_kernel_tables", None)
     if got is not None and got[0] is sp.blocks:
         return got[1]
+    from strainline.optimizer.search.faststrain import fast_tables
+
     b = sp.blocks
     f64 = lambda v: np.ascontiguousarray(v, dtype=np.float64)     # noqa: E731
     G = max(sp.n_cu - 1, 0)
     mask = np.ascontiguousarray(np.asarray(sp.arr["leaf_mask"], np.bool_).reshape(-1, G))
-    tabs = (f64(b["cu_t"]), f64(b["cu_E"]), f64(b["cov_t"]), f64(b["cov_E"]), f64(b["cov_inv"]),
-            f64(b["gap_t"]), f64(b["gap_E"]), f64(b["gap_inv"]), f64(b["fill"]), mask)
+    ft = fast_tables(sp)
+
+    def cols3(key: str) -> np.ndarray:          # (rows, 3): cover tables padded with an empty column
+        out = []
+        for part in ("cb", "ct", "gap"):
+            v = np.asarray(ft[part + "_" + key]).T
+            out.append(np.pad(v, ((0, 0), (0, 3 - v.shape[1]))))
+        return f64(np.concatenate(out))
+
+    group = tuple(f64(np.concatenate([ft[p + "_" + k] for p in ("cb", "ct", "gap")])) for k in "TSM")
+    tabs = {
+        "layers": (f64(b["cu_t"]), f64(b["cu_E"]), f64(b["cov_t"]), f64(b["cov_E"]), f64(b["cov_inv"]),
+                   f64(b["gap_t"]), f64(b["gap_E"]), f64(b["gap_inv"]), f64(b["fill"]), mask),
+        "groups": (f64(b["cu_t"]), f64(b["cu_E"]), f64(b["fill"])) + group
+                  + (cols3("yb"), cols3("yt"), cols3("inv")),
+        "stiff": bool(ft["stiff"]),
+    }
     problem._kernel_tables = (sp.blocks, tabs)
     return tabs
 
@@ -262,13 +368,20 @@ def zone_mechanics(problem: Any, slots: dict[str, np.ndarray], zone: Any = None,
     n = slots["signal"].shape[0]
     i64 = np.int64
     total, peak, ratio = np.empty(n), np.empty((N, n)), np.empty(n)
-    run = _parallel if parallel else _serial
-    run(_slot_major(slots["cu"], i64), _slot_major(slots["film"], i64), _slot_major(slots["adh"], i64),
-        _slot_major(slots["place"], i64), np.ascontiguousarray(slots["cover_top"], i64),
-        np.ascontiguousarray(slots["cover_bot"], i64), _slot_major(slots["cov_val"], np.float64),
-        np.ascontiguousarray(slots["leaves"], i64), *_tables(problem),
-        i64(len(sp.adh_opts)), i64(len(sp.cover_opts)), bool(sp.unbonded),
-        float(zone.inner_radius_mm * MM), zone.inside == "bottom", total, peak, ratio)
+    tabs = _tables(problem)
+    radius, bottom = float(zone.inner_radius_mm * MM), zone.inside == "bottom"
+    cu, film, adh, place = (_slot_major(slots[k], i64) for k in ("cu", "film", "adh", "place"))
+    ct, cb = np.ascontiguousarray(slots["cover_top"], i64), np.ascontiguousarray(slots["cover_bot"], i64)
+    cov = _slot_major(slots["cov_val"], np.float64)
+    n_adh, n_cov = i64(len(sp.adh_opts)), i64(len(sp.cover_opts))
+    if sp.unbonded:
+        run = _parallel if parallel else _serial
+        run(cu, film, adh, place, ct, cb, cov, np.ascontiguousarray(slots["leaves"], i64), *tabs["layers"],
+            n_adh, n_cov, True, radius, bottom, total, peak, ratio)
+    else:
+        run = _parallel_bonded if parallel else _serial_bonded
+        run(cu, film, adh, place, ct, cb, cov, *tabs["groups"], n_adh, n_cov, tabs["stiff"], radius, bottom,
+            total, peak, ratio)
     return total, peak.T, ratio
 
 
