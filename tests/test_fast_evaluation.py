@@ -46,7 +46,9 @@ BASE = {
               "dielectric": ["polyimide-film", "lcp-film"], "dielectric_thickness_um": [12.5, 50],
               "adhesive": ["none", "acrylic-adhesive", "epoxy-adhesive"], "adhesive_thickness_um": [15],
               "coverlay": ["polyimide-coverlay-acrylic", "polyimide-coverlay-epoxy", "none"],
-              "ground_coverage": [1.0, 0.5, 0.25]},
+              "ground_coverage": [1.0],   # hatched grounds of fill 0.51 and 0.25 as geometry
+              "ground_hatch": [{"pitch_um": 500, "line_width_um": 150, "angle_deg": 45},
+                               {"pitch_um": 500, "line_width_um": 67, "angle_deg": 45}]},
     "limits": {"total_thickness_um": 300, "min_cycles": 2000},
     "objectives": ["signal_strain", "thickness", "loss"],
 }

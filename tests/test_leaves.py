@@ -122,7 +122,8 @@ def _studies():
                       "dielectric": ["polyimide-film", "adhesiveless-polyimide-core"],
                       "dielectric_thickness_um": [25, 50], "adhesive": ["none", "acrylic-adhesive"],
                       "adhesive_thickness_um": [25], "coverlay": ["polyimide-coverlay-acrylic", "none"],
-                      "ground_coverage": [1.0, 0.5]},
+                      "ground_coverage": [1.0],
+                      "ground_hatch": [{"pitch_um": 500, "line_width_um": 150, "angle_deg": 45}]},
             "objectives": ["peak_strain", "thickness"]}
     for over in ({}, {"leaves": [[1], [2, 3, 4], [5]]}, {"leaves": "auto", "inside": "top"}):
         d = copy.deepcopy(base)

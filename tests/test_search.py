@@ -195,7 +195,8 @@ SMALL = {
               "copper_types": ["rolled-annealed", "electrodeposited"],
               "dielectric": ["polyimide-film", "lcp-film", "adhesiveless-polyimide-core"],
               "adhesive": ["none", "acrylic-adhesive"], "adhesive_thickness_um": [15, 25],
-              "coverlay": ["polyimide-coverlay-acrylic", "none"], "ground_coverage": [1.0, 0.5]},
+              "coverlay": ["polyimide-coverlay-acrylic", "none"], "ground_coverage": [1.0],
+              "ground_hatch": [{"pitch_um": 500, "line_width_um": 150, "angle_deg": 45}]},
     "limits": {"total_thickness_um": 180},
     "objectives": ["signal_strain", "thickness", "loss"],
 }

@@ -24,7 +24,8 @@ SMALL = {
     "stack": {"copper_layers": 2, "copper_weights": ["1/3oz", "1/2oz"],
               "dielectric": ["polyimide-film", "lcp-film"],
               "adhesive": ["none", "acrylic-adhesive"], "adhesive_thickness_um": [15, 25],
-              "coverlay": ["polyimide-coverlay-acrylic", "none"], "ground_coverage": [1.0, 0.5]},
+              "coverlay": ["polyimide-coverlay-acrylic", "none"], "ground_coverage": [1.0],
+              "ground_hatch": [{"pitch_um": 500, "line_width_um": 150, "angle_deg": 45}]},
     "objectives": ["signal_strain", "thickness", "loss", "life"],
     "search": {"seed": 5},
 }

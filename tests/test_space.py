@@ -39,7 +39,8 @@ STUDY = {
     "stack": {"copper_layers": 3, "copper_weights": ["1/3oz", "1/2oz"], "copper_types": ["rolled-annealed", "electrodeposited"],
               "dielectric": ["polyimide-film", "lcp-film"], "dielectric_thickness_um": [25, 50],
               "adhesive": ["none", "acrylic-adhesive"], "adhesive_thickness_um": [15, 25],
-              "coverlay": ["polyimide-coverlay-acrylic", "none"], "ground_coverage": [1.0, 0.5]},
+              "coverlay": ["polyimide-coverlay-acrylic", "none"], "ground_coverage": [1.0],
+              "ground_hatch": [{"pitch_um": 500, "line_width_um": 150, "angle_deg": 45}]},
     "objectives": ["signal_strain", "thickness", "loss"],
 }
 
@@ -107,14 +108,23 @@ def test_symmetric_stack_has_its_neutral_axis_at_mid_thickness():
     # Solid copper everywhere, and hatched copper whose fill is adhesive on both sides (fixed order:
     # adhesive on both faces of every film). (With a film on both sides of a hatched layer the
     # documented fill rule "adjacent adhesive, else the dielectric above" is not mirror-symmetric.)
+    # The hatched case: every ground takes the hatch of fill 1 - (1 - 100/400)^2 = 0.4375, the signal
+    # layer the same fill.
+    hatch = [{"pitch_um": 400, "line_width_um": 100, "angle_deg": 45}]
     cases = [(3, "stripline", 1.0, {}), (4, "microstrip", 1.0, {}), (5, "stripline", 1.0, {}),
-             (4, "microstrip", 0.5, {"stack__order": "fixed", "stack__signal_layer": 1,
-                                     "stack__adhesive": ["acrylic-adhesive"],
-                                     "stack__coverlay": ["polyimide-coverlay-acrylic"]})]
+             (4, "microstrip", 0.4375, {"stack__order": "fixed", "stack__signal_layer": 1,
+                                        "stack__adhesive": ["acrylic-adhesive"],
+                                        "stack__coverlay": ["polyimide-coverlay-acrylic"],
+                                        "stack__ground_hatch": hatch})]
     for n_cu, kind, cov, extra in cases:
+        extra = {"stack__ground_hatch": [], **extra}       # solid grounds only, unless the case hatches
         _, sp = make(stack__copper_layers=n_cu, stack__symmetric=True, line__type=kind,
-                     stack__signal_coverage=cov, stack__ground_coverage=[cov], **extra)
+                     stack__signal_coverage=cov, stack__ground_coverage=[1.0], **extra)
         x = sample(sp, 2000, seed=n_cu)
+        if cov < 1.0:   # every ground on the hatch option (the last coverage option)
+            for i, v in enumerate(sp.variables):
+                if v.name.startswith("coverage["):
+                    x[:, i] = v.size - 1
         t, e, leaf, _ = sp.mechanics(x)
         bs = bend_strains(t, e, 4 * MM, True)
         np.testing.assert_allclose(bs.y_na_m[:, 0], t.sum(axis=1) / 2, rtol=1e-12)
@@ -125,7 +135,7 @@ def test_moving_the_signal_toward_the_middle_never_raises_its_strain():
     # copper carries the line, the neutral axis is at mid-thickness, and the exact strain
     # (y - y_na)/(R + y_na) grows with the distance from it (transformed-section kinematics).
     study, sp = make(stack__copper_layers=5, stack__symmetric=True, line__type="stripline",
-                     stack__signal_coverage=1.0, stack__ground_coverage=[1.0])
+                     stack__signal_coverage=1.0, stack__ground_coverage=[1.0], stack__ground_hatch=[])
     pb = build_problem(sp, CAT)
     x = sample(sp, 500, seed=5)
     col = [v.name for v in sp.variables].index("signal_layer")
