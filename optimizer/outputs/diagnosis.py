@@ -17,11 +17,11 @@ from strainline.optimizer.outputs.stack import signal_index
 HINTS: dict[str, str] = {
     "total_thickness": "raise the thickness limit (limits.total_thickness_um), or allow thinner films, adhesives, "
                        "coverlays or copper",
-    "fatigue_life": "lower the required cycles (bend.cycles), open the bend (bend.inner_radius_mm), or allow "
-                    "thinner or rolled-annealed copper",
-    "impedance": "widen the trace-width range (line.width_range_um) or the impedance tolerance, or allow more "
-                 "dielectric thicknesses",
-    "width_range": "widen the trace-width range (line.width_range_um)",
+    "fatigue_life": "lower the required cycles (bend.cycles, or the zone's in bends:), open the bend "
+                    "(bend.inner_radius_mm), or allow thinner or rolled-annealed copper",
+    "impedance": "widen the trace-width range (line.width_range_um, or each entry's in lines:) or the impedance "
+                 "tolerance, or allow more dielectric thicknesses",
+    "width_range": "widen the trace-width range (line.width_range_um, or each entry's in lines:)",
     "equation_range": "allow dielectric thicknesses that keep the trace inside the equations' validity range",
     "gap_space": "allow a larger pair gap or a copper weight with a smaller minimum space",
     "peak_strain": "raise the strain limit (limits.peak_strain_pct) or open the bend",

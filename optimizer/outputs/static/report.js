@@ -136,6 +136,11 @@ function hoverText(c) {
   if (l.gap_um !== null && l.gap_um !== undefined) t += ', gap ' + efmt(l.gap_um) + ' um';
   if (l.z0_ohm !== null && l.z0_ohm !== undefined && !l.z_diff_ohm) t += '<br>Z0: ' + efmt(l.z0_ohm) + ' ohm';
   if (l.z_diff_ohm) t += '<br>Zdiff: ' + efmt(l.z_diff_ohm) + ' ohm';
+  if ((c.lines || []).length > 1) c.lines.forEach(function (ln) {
+    t += '<br>' + esc(ln.name) + ': ' + esc(zText(ln)) + ' ' + efmt(ln.z_ohm) + ' ohm on ' + esc(ln.layer) +
+      (ln.yield ? ', yield ' + efmt(ln.yield.yield_pct) + ' %' : '');
+  });
+  else if ((c.lines || [])[0] && c.lines[0].yield) t += '<br>impedance yield: ' + efmt(c.lines[0].yield.yield_pct) + ' %';
   if (bd.cycles_to_failure) t += '<br>cycles to failure: ' + efmt(bd.cycles_to_failure, 3);
   if (bd.radius_to_thickness) t += '<br>R / thickness: ' + efmt(bd.radius_to_thickness, 3);
   return t;
@@ -330,10 +335,13 @@ function drawZones(c) {
     return bt;
   })) : []);
   fill('zone-table', many ? [el('thead', null, el('tr', null, ['bend zone', 'inner radius (mm)', 'use', 'cycles required',
-    'peak copper strain (%)', 'cycles to failure', 'R / thickness'].map(function (t, k) { return el('th', {'class': k ? '' : 't'}, t); }))),
-    el('tbody', null, c.bends.map(function (b) {
+    'peak copper strain (%)', 'strain limit (%)', 'cycles to failure', 'R / thickness'].map(function (t, k) {
+      return el('th', {'class': k ? '' : 't'}, t); }))),
+    el('tbody', null, c.bends.map(function (b, z) {
+      var zl = (c.zone_limits || [])[z];
       return el('tr', null, [el('td', {'class': 't'}, b.name), el('td', null, fmt(b.inner_radius_mm)), el('td', null, fmt(b.use)),
         el('td', null, fmt(b.required_cycles)), el('td', null, fmt(b.peak_copper_strain_pct)),
+        el('td', {title: zl ? zl.basis : ''}, zl && typeof zl.pct === 'number' ? '+/-' + fmt(zl.pct, 3) : '-'),
         el('td', null, fmt(b.cycles_to_failure, 3)), el('td', null, fmt(b.radius_to_thickness, 3))]);
     }))] : []);
   drawLines(c);
