@@ -199,7 +199,8 @@ def _rows_bonded(lo, hi, cu, film, adh, place, ct_, cb_, cov,
     a cover or gap contributes its thickness ``T``, stiffness ``S = sum E t`` and first moment
     ``M`` about its own bottom face; rows of ``gT``... are the bottom covers (``n_cov``), the top
     covers (``n_cov``), then the gap codes; ``gyb``, ``gyt``, ``ginv`` (rows, 3) give every column's
-    bottom and top height in its group and its inverse elongation (0 for an empty column)."""
+    bottom and top height in its group and its inverse elongation (0 for an empty column, and for
+    the third column of a two-column cover)."""
     N = cu.shape[0]
     G = N - 1
     ybot = np.zeros(N)
@@ -263,8 +264,7 @@ def _rows_bonded(lo, hi, cu, film, adh, place, ct_, cb_, cov,
                 v = e + gyt[row, c]
                 w = -(e + gyb[row, c])
                 v = (v if v > w else w) * ginv[row, c]
-                if v > worst:
-                    worst = v
+                worst = v if v > worst else worst
         ratio_out[r] = worst * absk
 
 
