@@ -49,7 +49,7 @@ EXACT = {
               "copper_types": ["rolled-annealed", "high-ductility-ed"],
               "dielectric": ["polyimide-film", "adhesiveless-polyimide-core", "lcp-film"],
               "adhesive": ["none", "acrylic-adhesive"], "adhesive_thickness_um": [15, 25],
-              "coverlay": ["polyimide-coverlay-acrylic", "none"], "ground_coverage": [1.0, 0.5]},
+              "coverlay": ["polyimide-coverlay-acrylic", "none"], "ground_coverage": [1.0], "ground_hatch": [{"pitch_um": 500, "line_width_um": 150, "angle_deg": 45}]},
     "limits": {"total_thickness_um": 250},
     "objectives": ["signal_strain", "thickness", "loss"],
 }
@@ -62,7 +62,7 @@ BIG = {
               "copper_weights": ["1/4oz", "1/3oz", "1/2oz"], "copper_types": ["rolled-annealed", "high-ductility-ed"],
               "dielectric": ["polyimide-film", "adhesiveless-polyimide-core", "lcp-film"],
               "adhesive": ["none", "acrylic-adhesive"], "adhesive_thickness_um": [15, 25],
-              "coverlay": ["polyimide-coverlay-acrylic"], "ground_coverage": [1.0, 0.5]},
+              "coverlay": ["polyimide-coverlay-acrylic"], "ground_coverage": [1.0], "ground_hatch": [{"pitch_um": 500, "line_width_um": 150, "angle_deg": 45}]},
     "limits": {"total_thickness_um": 600},
     "objectives": ["signal_strain", "thickness", "loss"],
 }

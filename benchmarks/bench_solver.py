@@ -44,7 +44,7 @@ THREE_CU = {
               "copper_types": ["rolled-annealed", "high-ductility-ed"],
               "dielectric": ["polyimide-film", "adhesiveless-polyimide-core", "lcp-film"],
               "adhesive": ["none", "acrylic-adhesive"], "adhesive_thickness_um": [15, 25],
-              "coverlay": ["polyimide-coverlay-acrylic"], "ground_coverage": [1.0, 0.5]},
+              "coverlay": ["polyimide-coverlay-acrylic"], "ground_coverage": [1.0], "ground_hatch": [{"pitch_um": 500, "line_width_um": 150, "angle_deg": 45}]},
     "limits": {"total_thickness_um": 250},
     "objectives": ["signal_strain", "thickness", "loss"],
 }
@@ -130,7 +130,7 @@ def main() -> None:
     print(f"speed-up batch/loop: {rate / loop:,.0f} x")
 
     # exhaustive search of a ~10^6 space
-    d = {**THREE_CU, "stack": {**THREE_CU["stack"], "copper_layers": 2, "ground_coverage": [1.0, 0.5, 0.25],
+    d = {**THREE_CU, "stack": {**THREE_CU["stack"], "copper_layers": 2, "ground_coverage": [1.0], "ground_hatch": [{"pitch_um": 500, "line_width_um": 150}, {"pitch_um": 500, "line_width_um": 67}],
                                 "copper_weights": ["1/4oz", "1/3oz", "1/2oz"],
                                 "coverlay": ["polyimide-coverlay-acrylic", "none"]}}
     pb2, _ = problem_of(d)

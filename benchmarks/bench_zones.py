@@ -39,7 +39,7 @@ BASE = {
               "copper_weights": ["1/3oz", "1/2oz"], "copper_types": ["rolled-annealed"],
               "dielectric": ["polyimide-film", "adhesiveless-polyimide-core"], "dielectric_thickness_um": [25, 50],
               "adhesive": ["none", "acrylic-adhesive"], "adhesive_thickness_um": [25],
-              "coverlay": ["polyimide-coverlay-acrylic"], "ground_coverage": [1.0, 0.5]},
+              "coverlay": ["polyimide-coverlay-acrylic"], "ground_coverage": [1.0], "ground_hatch": [{"pitch_um": 500, "line_width_um": 150, "angle_deg": 45}]},
     "objectives": ["peak_strain", "thickness", "life"],
     "search": {"impedance": "closed-form"},
 }

@@ -258,8 +258,8 @@ class StackModel(Base):
     coverlay: K.choice_list(_COV, schema_allowed=_COV_S, description=(
         "covers allowed on the outer faces (coverlay builds from the catalog, a cover-family dielectric, "
         "or none)")) = (S.NONE,)
-    ground_coverage: K.num_list(0.0, 1.0, description="copper fraction options of the ground layers (1 = solid, "
-                                "below 1 = hatched)") = (1.0,)
+    ground_coverage: K.num_list(0.0, 1.0, description="copper fraction of the ground layers: 1 (a solid plane); "
+                                "give hatched planes as geometry in ground_hatch") = (1.0,)
     signal_coverage: K.num(0.0, 1.0, lo_open=True, description="copper fraction of the signal layer in the bend "
                            "(default 0.25)") = 0.25
     ground_hatch: list[HatchModel] = Field(default=None, description=(
@@ -333,8 +333,15 @@ assert tuple(LimitsModel.model_fields) == S._LIMIT_KEYS and tuple(SearchModel.mo
 
 # ------------------------------------------------------------------------------------------------
 def _ground_hatch(st: Any, err: Any) -> tuple[tuple[float, ...], tuple[tuple[float, float, float], ...]]:
-    """Coverage options and hatch geometry: each ``ground_hatch`` entry adds its fill
-    1 - (1 - w/p)^2 (square grid) to the solid option(s) of ``ground_coverage``."""
+    """Coverage options and hatch geometry: ``ground_coverage`` holds the solid plane (1); each
+    ``ground_hatch`` entry adds its fill 1 - (1 - w/p)^2 (square grid) as a further option. A bare
+    fraction below 1 is refused: the line table would solve it as a solid plane, and the search would
+    take its lower strain at no impedance cost."""
+    partial = [c for c in st.ground_coverage if c < 1.0]
+    if partial:
+        raise err("stack.ground_coverage", f"{partial[0]:g} is not allowed: ground_coverage takes only 1 (a solid "
+                  "plane); give a hatched plane as geometry in stack.ground_hatch (pitch_um, line_width_um, "
+                  "angle_deg 45 or 90), whose impedance is then solved")
     if not st.ground_hatch:
         return tuple(st.ground_coverage), ()
     hatches, fills = [], []
@@ -349,10 +356,6 @@ def _ground_hatch(st: Any, err: Any) -> tuple[tuple[float, ...], tuple[tuple[flo
             raise err(f"stack.ground_hatch[{i}]", f"has the same copper fill ({fill:.4g}) as an earlier hatch")
         hatches.append((float(h.pitch_um), float(h.line_width_um), float(h.angle_deg)))
         fills.append(fill)
-    partial = [c for c in st.ground_coverage if c < 1.0]
-    if partial:
-        raise err("stack.ground_coverage", f"{partial[0]:g} is a hatched fraction; with stack.ground_hatch give "
-                  "hatched planes as geometry only (ground_coverage keeps 1 for a solid plane)")
     return tuple(st.ground_coverage) + tuple(fills), tuple(hatches)
 
 

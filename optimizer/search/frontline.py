@@ -138,15 +138,6 @@ def line_record(problem: Any, slots: dict[str, np.ndarray], row: int,
         if hrec is not None:
             line["hatch"] = hrec
         findings += hnotes
-    elif hatched:
-        findings.append(_finding(
-            "hatched-reference", "warning",
-            who + "reference plane " + ", ".join(f"L{p + 1} ({100 * cov[p]:.0f} % copper)" for p in hatched)
-            + " is hatched: the impedance shown is the solid-plane value, a lower bound; hatched-plane "
-            "impedance has no closed form; give the hatch geometry (stack.ground_hatch) so the search solves "
-            "it in 3-D and pays for it, or check it with strainline line --hatch-pitch-um/--hatch-width-um "
-            "and coupons",
-            "lines reference notes section 7 (no published closed form)"))
     return line, findings
 
 
