@@ -4,8 +4,9 @@ The page embeds the whole front as JSON and draws it with plotly.js (inlined, so
 and makes no network request): the Pareto front coloured by a chosen quantity, the cross-section
 and strain profile of the selected candidate, a per-layer table, a parallel-coordinates view of the
 decision variables and a sortable table of all candidates, under the study's inputs, the search
-summary and the cautions. The page is ``templates/report.html`` with ``static/report.css`` and
-``static/report.js``; its data goes in once, as JSON (:func:`templating.embed_json`).
+summary and the cautions. The page is ``templates/report.html`` with ``static/report.css``,
+``static/report_draw.js`` (one candidate's drawings) and ``static/report.js`` (the views over the
+front); its data goes in once, as JSON (:func:`templating.embed_json`).
 
 Public API
 ----------
@@ -72,6 +73,7 @@ def build_report_html(front: Mapping[str, Any], catalog: Any | None = None, plot
         title=f"strainline report: {study_name(front)}",
         css=inline_style(static_text("report.css")),
         plotly_js=inline_script(plotly_js),
+        draw_js=inline_script(static_text("report_draw.js")),
         app_js=inline_script(static_text("report.js")),
         cautions=cautions(front),
         convention=STRAIN_CONVENTION,
