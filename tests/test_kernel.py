@@ -160,3 +160,82 @@ def test_switch(monkeypatch):
     assert kernel.enabled()
     monkeypatch.delenv("STRAINLINE_KERNEL")
     assert kernel.enabled()
+
+
+# --------------------------------------------------------------------------- the whole evaluation
+#: The strain block of ``Problem._evaluate`` and its replacement by the kernel (the integration the
+#: kernel's hand-over proposes; benchmarks/bench_kernel.py applies the same one). Once problem.py
+#: calls the kernel itself, the test toggles ``STRAINLINE_KERNEL`` instead.
+PATCH = (("        fast = self.fast is not None and not sp.unbonded\n        if fast:\n",
+          "        fast = self.fast is not None and not sp.unbonded\n        use_kernel = _kernel.enabled()\n"
+          "        if fast or use_kernel:\n"),
+         ("                if fast:\n                    total, cu_peak, ratio = self.copper_strains(slots, dielectric=True)\n",
+          "                if use_kernel:\n                    total, cu_peak, ratio = _kernel.zone_mechanics(self, slots, zone)\n"
+          "                elif fast:\n                    total, cu_peak, ratio = self.copper_strains(slots, dielectric=True)\n"))
+
+
+def _with_kernel(monkeypatch, on: bool) -> None:
+    import inspect
+    import textwrap
+
+    from strainline.optimizer.search import problem
+
+    monkeypatch.setenv("STRAINLINE_KERNEL", "1" if on else "0")
+    src = inspect.getsource(problem.Problem._evaluate)
+    if "zone_mechanics" in src or not on:
+        return
+    for old, new in PATCH:
+        assert old in src, "Problem._evaluate changed: update PATCH"
+        src = src.replace(old, new)
+    ns = dict(vars(problem), _kernel=kernel)
+    exec(compile(textwrap.dedent(src), problem.__file__, "exec"), ns)
+    monkeypatch.setattr(problem.Problem, "_evaluate", ns["_evaluate"])
+
+
+EVAL_CASES = ["bonded", "plane-strain-top", "coupled", "unbonded-auto", "unbonded-fixed", "shipped:reader-fold-and-hinge",
+              "shipped:dock-tail-three-lines"]
+
+
+@pytest.mark.parametrize("name", EVAL_CASES)
+def test_evaluate_with_kernel_equals_numpy_evaluate(name, monkeypatch):
+    # Reference: Problem.evaluate on the numpy paths (STRAINLINE_KERNEL=0), itself checked against
+    # the layer path in tests/test_fast_evaluation.py.
+    from strainline.optimizer.search.linetable import table_options
+    from strainline.optimizer.search.problem import build_problem
+
+    if name.startswith("shipped:"):
+        study = load_study(ROOT / "studies" / (name.split(":")[1] + ".yaml"))
+        cat = load_catalog(study.catalog_path) if getattr(study, "catalog_path", None) else CAT
+    else:
+        study, cat = _study(CASES[name]), CAT
+    with table_options(impedance="closed-form"):
+        pb = build_problem(build_space(study, cat), cat)
+    x = pb.space.repair(np.random.default_rng(3).integers(0, pb.space.sizes, (12000, pb.n_var)))
+    runs = {}
+    for on in (False, True):
+        with monkeypatch.context() as m:
+            _with_kernel(m, on)
+            runs[on] = (pb.evaluate(x, want_cycles=True), pb.evaluate(x, prune=True))
+    (a, ap), (b, bp) = runs[True], runs[False]
+    np.testing.assert_allclose(a.peak_strain, b.peak_strain, rtol=RTOL, atol=0)
+    np.testing.assert_allclose(a.signal_strain, b.signal_strain, rtol=RTOL, atol=0)
+    np.testing.assert_allclose(a.total_thickness_m, b.total_thickness_m, rtol=RTOL, atol=0)
+    np.testing.assert_allclose(a.cycles, b.cycles, rtol=1e-9, atol=0)
+    np.testing.assert_allclose(a.zone_peak, b.zone_peak, rtol=RTOL, atol=0)
+    np.testing.assert_array_equal(a.line_row, b.line_row)
+    np.testing.assert_allclose(a.G, b.G, rtol=1e-10, atol=1e-15)
+    # feasibility agrees except on a row sitting exactly on a limit (e.g. a stack whose layers sum
+    # to the thickness limit: the numpy batch sum may end 1 ulp above it, the sequential sum on it)
+    mech = [k for k, c in enumerate(pb.constraint_names)
+            if c in ("total_thickness", "peak_strain", "signal_strain", "fatigue_life", "material_strain", "glass")]
+    edge = np.any(np.abs(b.G[:, mech]) < 1e-12, axis=1)
+    assert np.array_equal(a.feasible[~edge], b.feasible[~edge]) and edge.mean() < 0.01
+    # objectives of feasible rows are rounded to the objective grid: a 1e-16 difference may move one
+    # step (as in tests/test_fast_evaluation.py); the others keep full precision
+    f = a.feasible & b.feasible
+    diff = np.abs(np.nan_to_num(a.F[f], posinf=0.0) - np.nan_to_num(b.F[f], posinf=0.0))
+    assert np.all(diff <= pb.resolution * 1.0001)
+    nf = ~a.feasible & ~b.feasible
+    np.testing.assert_allclose(a.F[nf], b.F[nf], rtol=1e-10, atol=0)
+    np.testing.assert_array_equal(ap.feasible[~edge], bp.feasible[~edge])
+    np.testing.assert_allclose(ap.G, bp.G, rtol=1e-10, atol=1e-15)
