@@ -79,6 +79,8 @@ def build_front(problem: Problem, result: SearchResult, catalog: Any, seed: int,
     ev = problem.evaluate(X, want_cycles=True) if len(X) else None
     keys = problem.objective_keys()
     tb = problem.table
+    if len(X) and study.stack.ground_hatch:
+        _prefetch_hatches(problem, X, ev)     # the candidates' 3-D hatch solves, on every core
     candidates = []
     for j in range(len(X)):
         x = X[j]
@@ -181,6 +183,29 @@ def build_front(problem: Problem, result: SearchResult, catalog: Any, seed: int,
         "dominated": dominated,
         "caution": CAUTION,
     }
+
+
+def _prefetch_hatches(problem: Problem, X: np.ndarray, ev: Any) -> None:
+    """Solve the front's distinct 3-D hatch cross-sections in parallel into the field cache."""
+    from strainline.optimizer.search.fieldcache import FieldCache
+    from strainline.optimizer.search.frontline import hatch_task_of
+    from strainline.optimizer.search.hatchline import prefetch_hatch
+
+    slots = problem.space.slots(X)
+    tasks = []
+    for j in range(len(X)):
+        one = {k: v[j:j + 1] for k, v in slots.items()}
+        parts = ([(sub, view_slots(one, k), int(ev.line_rows[j, k])) for k, sub in enumerate(problem.lines)]
+                 if problem.lines else [(problem, one, int(ev.line_row[j]))])
+        for pb, sl, row in parts:
+            t = hatch_task_of(pb, sl, row)
+            if t is not None:
+                tasks.append(t)
+    cache = FieldCache()
+    try:
+        prefetch_hatch(tasks, cache)
+    finally:
+        cache.close()
 
 
 def _on_front(A: np.ndarray, F: np.ndarray) -> np.ndarray:

@@ -28,6 +28,29 @@ def _finding(code: str, severity: str, message: str, source: str) -> dict[str, s
     return {"code": code, "severity": severity, "message": message, "source": source}
 
 
+def _planes(kind: str, sig: int, n_cu: int) -> list[int]:
+    """0-based reference planes of a line on copper ``sig``."""
+    if kind in ("stripline", "coupled-stripline"):
+        return [p for p in (sig - 1, sig + 1) if 0 <= p < n_cu]
+    return [sig + 1] if sig == 0 else [sig - 1]
+
+
+def hatch_task_of(problem: Any, slots: dict[str, np.ndarray], row: int) -> tuple | None:
+    """The 3-D hatch solve :func:`line_record` will need for this line of this candidate (or None),
+    so a front's solves can run in parallel first (:func:`.hatchline.prefetch_hatch`)."""
+    from strainline.optimizer.search.hatchline import hatch_task
+
+    study = problem.space.study
+    if not study.stack.ground_hatch:
+        return None
+    sig = int(slots["signal"][0])
+    cov = slots["cov_val"][0]
+    hatched = [p for p in _planes(study.line.type, sig, problem.space.n_cu) if cov[p] < 1.0]
+    if not hatched:
+        return None
+    return hatch_task(study, problem.table, row, hatched, sig, {p: float(cov[p]) for p in hatched})
+
+
 def line_record(problem: Any, slots: dict[str, np.ndarray], row: int,
                 want_yield: bool) -> tuple[dict[str, Any], list[dict[str, str]]]:
     """The ``front.json`` record of one line of one candidate, and its findings.
@@ -57,9 +80,7 @@ def line_record(problem: Any, slots: dict[str, np.ndarray], row: int,
                         er_top=tb.er_top[row], cover_m=tb.cover_m[row], cover_er=tb.cover_er[row],
                         bottom_ground=True)
     loss = float(tb.loss_db_per_m[row])
-    planes = [p for p in (sig - 1, sig + 1) if 0 <= p < sp.n_cu]
-    if kind not in ("stripline", "coupled-stripline"):
-        planes = [sig + 1] if sig == 0 else [sig - 1]
+    planes = _planes(kind, sig, sp.n_cu)
     line: dict[str, Any] = {
         "name": ln.name,
         "type": kind,
@@ -141,4 +162,4 @@ def line_record(problem: Any, slots: dict[str, np.ndarray], row: int,
     return line, findings
 
 
-__all__ = ["line_record"]
+__all__ = ["hatch_task_of", "line_record"]

@@ -140,7 +140,7 @@ def hatch_text(d: dict[str, Any]) -> str:
     return "\n".join(lines)
 
 
-__all__ = ["cached_hatch_solve", "hatch_for_line", "hatch_from_args", "hatch_text"]
+__all__ = ["cached_hatch_solve", "hatch_for_line", "hatch_from_args", "hatch_text", "hatch_task", "prefetch_hatch"]
 
 
 def _finding(code: str, severity: str, message: str, source: str) -> dict[str, str]:
@@ -205,6 +205,7 @@ def candidate_hatch(study: Any, tb: Any, row: int, hatched: list[int], sig: int,
     if geo is None:
         return None, []
     pitch, width, angle = geo
+    task = hatch_task(study, tb, row, hatched, sig, fills)
     hatch = Hatch(pitch * UM, width * UM, angle, float(np.broadcast_to(tb.thickness_m, (tb.n_rows,))[row]))
     out: dict[str, Any] = {"layer": p_lay + 1, "pitch_um": pitch, "line_width_um": width, "angle_deg": angle,
                            "fill": _r(hatch.fill, 4)}
@@ -215,8 +216,7 @@ def candidate_hatch(study: Any, tb: Any, row: int, hatched: list[int], sig: int,
                                  "modelled: the impedance shown is the solid-plane value",
                                  "strainline's 3-D hatched-plane solver covers microstrip, stripline and pairs"))
         return out, findings
-    geom, hatch, below = candidate_geometry(study, tb, row, pitch, width, angle,
-                                            kind in ("stripline", "coupled-stripline") and p_lay > sig)
+    _, geom, hatch, below = task
     res = cached_hatch_solve(kind, geom, hatch, cache, layers_below=below)
     calibrated = study.line.hatch_correction
     factor = float(calibrated) if calibrated is not None else res.ratio
@@ -250,3 +250,60 @@ def candidate_hatch(study: Any, tb: Any, row: int, hatched: list[int], sig: int,
             "uniform; use a full-wave solution or a measured coupon",
             "Bragg condition beta P = pi (Brillouin 1946); lambda/10 rule (common practice, no source)"))
     return out, findings
+
+
+def hatch_task(study: Any, tb: Any, row: int, hatched: list[int], sig: int,
+               fills: dict[int, float]) -> tuple[str, Any, Hatch, list] | None:
+    """The 3-D solve one front candidate over a hatch needs: ``(kind, geom, hatch, layers_below)``
+    (the first hatched plane, as :func:`candidate_hatch` solves it), or None (no hatch geometry,
+    coplanar, or a fill without geometry)."""
+    hatches = getattr(study.stack, "ground_hatch", ())
+    if not hatches or not hatched or study.line.type == "coplanar":
+        return None
+    by_fill = {round(1.0 - (1.0 - w / p) ** 2, 9): (p, w, a) for p, w, a in hatches}
+    p_lay = hatched[0]
+    geo = by_fill.get(round(fills[p_lay], 9))
+    if geo is None:
+        return None
+    kind = study.line.type
+    geom, hatch, below = candidate_geometry(study, tb, row, *geo,
+                                            kind in ("stripline", "coupled-stripline") and p_lay > sig)
+    return kind, geom, hatch, below
+
+
+def _solve_task(task: tuple) -> tuple:
+    kind, geom, hatch, below = task
+    return task, hatch_solve(kind, geom, hatch, layers_below=below)
+
+
+def prefetch_hatch(tasks: list[tuple], cache: Any, workers: int | None = None) -> int:
+    """Solve the distinct 3-D hatch tasks the cache does not hold yet, on ``workers`` local
+    processes (default: every core), and store them; returns how many were solved. The later
+    :func:`cached_hatch_solve` calls then read the cache (the same numbers as solving in place)."""
+    import os
+
+    from strainline.optimizer.search.fieldcache import point_key
+
+    if cache is None or not cache.enabled or not tasks:
+        return 0
+    todo: dict[str, tuple] = {}
+    for kind, geom, hatch, below in tasks:
+        sec = section_from_geometry(kind, geom, below, (), None)
+        key = point_key({"hatch_solver": SOLVER_VERSION, "section": asdict(sec), "hatch": asdict(hatch), "mesh": {}})
+        todo.setdefault(key, (kind, geom, hatch, below))
+    have = cache.get_many(list(todo))
+    miss = {k: t for k, t in todo.items() if have.get(k) is None}
+    if not miss:
+        return 0
+    n = max(1, min(len(miss), workers or os.cpu_count() or 1))
+    keys = list(miss)
+    if n == 1 or len(miss) == 1:
+        results = [_solve_task(miss[k])[1] for k in keys]
+    else:
+        import multiprocessing as mp
+        from concurrent.futures import ProcessPoolExecutor
+
+        with ProcessPoolExecutor(n, mp_context=mp.get_context("spawn")) as ex:
+            results = [r for _, r in ex.map(_solve_task, [miss[k] for k in keys])]
+    cache.put_many({k: asdict(r) for k, r in zip(keys, results)})
+    return len(keys)

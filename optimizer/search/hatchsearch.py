@@ -62,10 +62,16 @@ def hatch_rows(pb: Any) -> dict[str, np.ndarray]:
             elif study.line.type == "coplanar":      # not modelled over a hatch (stated in the finding)
                 f = np.ones(n)
             else:
-                fr = []
-                for r in reps:
-                    geom, hatch, below = candidate_geometry(study, tb, int(r), pitch, width, angle, False)
-                    fr.append(cached_hatch_solve(study.line.type, geom, hatch, cache, layers_below=below).ratio)
+                # the factor is taken as independent of the width (module notes), so the 3-D solves
+                # of the representative rows are kept when a field refinement moves their widths
+                kept = pb.__dict__.setdefault("_hatch_factors", {})
+                fr = kept.get((pitch, width, angle))
+                if fr is None:
+                    fr = []
+                    for r in reps:
+                        geom, hatch, below = candidate_geometry(study, tb, int(r), pitch, width, angle, False)
+                        fr.append(cached_hatch_solve(study.line.type, geom, hatch, cache, layers_below=below).ratio)
+                    kept[(pitch, width, angle)] = fr
                 lh = np.log(h[reps])
                 if np.ptp(lh) > 0:
                     f = np.exp(np.interp(np.log(h), lh, np.log(fr)))
