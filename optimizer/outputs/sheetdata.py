@@ -3,8 +3,9 @@
 :func:`build_sheet` returns a :class:`Sheet`: the stackup rows top to bottom (with Dk/Df and the
 frequency they hold at), the overall thickness with its tolerance combined from the layers (worst
 case and root-sum-square, both stated) beside the fabricator's capability rule, the
-controlled-impedance table (:mod:`sheetline`), the bend requirements and the drawing fields
-(:mod:`sheetbend`), the notes with their sources (:mod:`sheetnotes`) and the cautions. Every number
+controlled-impedance table (:mod:`sheetline`; with several lines one more block per further line, section
+``lines``), the bend requirements (with several zones one block per zone, section ``zone``) and the drawing
+fields (:mod:`sheetbend`), the notes with their sources (:mod:`sheetnotes`) and the cautions. Every number
 taken from ``front.json`` keeps its exact value and names its field in ``Row.key``; derived numbers
 have an empty key and are rounded (:data:`sheetrows.DECIMALS`).
 """

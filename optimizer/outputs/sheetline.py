@@ -13,7 +13,7 @@ from strainline.optimizer.outputs.sheetlookup import (
     weight_of,
     width_tolerance,
 )
-from strainline.optimizer.outputs.linesview import insertion_loss, line_name, study_line, yield_of
+from strainline.optimizer.outputs.linesview import insertion_loss, line_name, lines_of, study_line, yield_of
 from strainline.optimizer.outputs.sheetrows import Sheet, derived
 
 #: The test method named on every sheet for the impedance coupon.
@@ -110,7 +110,7 @@ def impedance_rows(sheet: Sheet, cand: Mapping[str, Any], front: Mapping[str, An
                   "", "", "run `strainline solve STUDY --verify` to add one")
 
 
-    _etch_and_loss(sheet, line, layers, front, catalog, sig)
+    _etch_and_loss(sheet, line, layers, front, catalog, sig, lines_of(cand))
 
 
 def _dk_note(layers: list[Mapping[str, Any]], catalog: Any | None) -> str:
@@ -123,7 +123,8 @@ def _dk_note(layers: list[Mapping[str, Any]], catalog: Any | None) -> str:
 
 
 def _etch_and_loss(sheet: Sheet, line: Mapping[str, Any], layers: list[Mapping[str, Any]],
-                   front: Mapping[str, Any], catalog: Any | None, sig: int | None) -> None:
+                   front: Mapping[str, Any], catalog: Any | None, sig: int | None,
+                   cand_lines: list[Mapping[str, Any]] = ()) -> None:
     """Etched-width tolerance, the fabricator's minimum features, loss at its frequency, the coupon."""
     weight = line.get("copper_weight")
     if not weight and sig is not None:
@@ -149,9 +150,12 @@ def _etch_and_loss(sheet: Sheet, line: Mapping[str, Any], layers: list[Mapping[s
         sheet.add("impedance", "loss", "line loss" + at + " (estimate)", line["loss_db_per_m"], "dB/m",
                   "line.loss_db_per_m", " + ".join(split))
     _line_figures(sheet, "impedance", "loss", line, "line", "", front, 0)
-    sheet.add("impedance", "coupon", "impedance test coupon",
-              "one per panel: this line on the same layer, width, gap and reference planes, "
-              "in the same material build", "", "", "IPC-6013 acceptance by coupon; details agreed with the fabricator")
+    names = [line_name(ln, k) for k, ln in enumerate(cand_lines)]
+    what = (f"one per panel for each of the {len(names)} controlled lines ({', '.join(names)}): each line on its "
+            "own layer, width, gap and reference planes" if len(names) > 1 else
+            "one per panel: this line on the same layer, width, gap and reference planes")
+    sheet.add("impedance", "coupon", "impedance test coupon", what + ", in the same material build", "", "",
+              "IPC-6013 acceptance by coupon; details agreed with the fabricator")
     sheet.add("impedance", "coupon", "coupon test method", COUPON_METHOD, "", "",
               "IPC-TM-650 2.5.5.7, characteristic impedance of lines on printed boards by TDR")
 
