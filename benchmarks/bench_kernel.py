@@ -12,7 +12,10 @@ it (``bend.region: unbonded``, leaves auto), in candidates per CPU second on one
    comparison runs with ``STRAINLINE_KERNEL=0`` and ``1``;
 3. compile time: a fresh process with an empty numba cache (``NUMBA_CACHE_DIR``) times its first
    call, a second process with the filled cache times its first call again (what a parallel worker
-   pays).
+   pays);
+4. where the time of one evaluation block (``BLOCK`` rows) goes with the kernel: nanoseconds per
+   candidate of each step ``Problem._evaluate`` runs (decode, strains, line rows, line columns,
+   hatch width, material limits, fatigue) and of the whole block.
 
 The line table uses the closed-form impedance model (it only changes the table's build time, not the
 evaluation). Times are process CPU seconds (time.process_time), best of three (shared, noisy
@@ -147,6 +150,44 @@ def compile_times() -> tuple[float, float]:
     return out[0], out[1]
 
 
+def breakdown(pb) -> None:
+    """Nanoseconds per candidate of the steps of one evaluation block, with the kernel."""
+    from strainline.models.fatigue import strain_range
+    from strainline.optimizer.search import constraints as material, kernel
+    from strainline.optimizer.search.problem import BLOCK
+
+    sp, zone = pb.space, pb.space.study.bend
+    rng = np.random.default_rng(1)
+    xs = [sp.index_to_x(rng.integers(0, sp.size, BLOCK)) for _ in range(8)]
+    S = [sp.slots(x) for x in xs]
+    K = [kernel.zone_mechanics(pb, s, zone) for s in S]
+    R = [pb._rows(s) for s in S]
+
+    def fatigue(i: int) -> None:
+        out = None
+        for j in range(sp.n_cu):
+            r = strain_range(K[i][1][:, j], zone.motion) / pb.allowed_range[0].take(S[i]["cu"][:, j], mode="clip")
+            out = r if out is None else np.maximum(out, r, out=out)
+
+    steps = {"decode (Space.slots)": lambda i: sp.slots(xs[i]),
+             "strains (kernel)": lambda i: kernel.zone_mechanics(pb, S[i], zone),
+             "line rows": lambda i: pb._rows(S[i]),
+             "line constraint columns": lambda i: pb._line_g(R[i], S[i]),
+             "material limits": lambda i: material.material_constraints(pb, S[i], K[i][0], K[i][2])}
+    if "hatch_width" in pb.constraint_names:
+        from strainline.optimizer.search.hatchsearch import hatch_width_constraint
+        steps["hatch width"] = lambda i: hatch_width_constraint(pb, S[i], R[i])
+    if pb.allowed_range is not None and pb.allowed_range[0] is not None:
+        steps["fatigue (life limit)"] = fatigue
+    with kernel_in_evaluate(True):
+        steps["whole _evaluate block"] = lambda i: pb._evaluate(xs[i])
+        parts = []
+        for name, f in steps.items():
+            ns = 1e9 / best_rate(lambda: [f(i) for i in range(len(xs))], BLOCK * len(xs))
+            parts.append(f"{name} {ns:.0f}")
+    print(f"  ns per candidate, blocks of {BLOCK}: " + ", ".join(parts))
+
+
 def main() -> None:
     from strainline.optimizer.search import kernel
 
@@ -178,6 +219,7 @@ def main() -> None:
                       f"{rates[on] / 1e6:6.2f} M/s")
         print(f"[{label}] full evaluation speed-up {rates[True] / rates[False]:.2f}x "
               f"(issue 13 target: 25 M/s per core on the bonded study)")
+        breakdown(pb)
 
 
 if __name__ == "__main__":
