@@ -144,6 +144,7 @@ def test_sheets_give_every_line_and_every_zone_its_block(front):
         first = df[df["section"] == "impedance"].set_index("quantity")
         assert first.loc["tolerance that dominates the yield", "value"] == _dominant(cand["lines"][0])
         assert f"Controlled impedance: line {NAMES[0]}" in html
+        assert f"each of the 3 controlled lines ({', '.join(NAMES)})" in html      # one impedance coupon per line
         carries = df[(df["section"] == "stackup") & (df["quantity"] == "function")]
         assert sum(v.startswith("signal (") for v in carries["value"]) == len({ln["layer"] for ln in cand["lines"]})
         for z, zone in enumerate(cand["bends"]):
