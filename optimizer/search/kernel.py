@@ -56,7 +56,6 @@ def _rows_bonded(lo, hi, cu, film, adh, place, ct_, cb_, cov,
     bottom and top height in its group and its inverse elongation (0 for an empty column, and for
     the third column of a two-column cover)."""
     N = cu.shape[0]
-    G = N - 1
     ybot = np.zeros(N)
     tcu = np.zeros(N)
     base = np.zeros(N + 1)                       # bottom height of each dielectric group
