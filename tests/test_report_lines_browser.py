@@ -84,17 +84,19 @@ def test_every_line_its_yield_and_dominant_tolerance_in_the_panel(browser_ctx, s
             assert [r[0] for r in rows] == list(NAMES)
             col = {h: j for j, h in enumerate(heads)}
             for r, ln in zip(rows, cand["lines"]):
-                assert r[col["layer"]] == ln["layer_name"]
+                assert r[col["type, layer"]] == f"{ln['type']} on {ln['layer_name']}"
                 assert r[col["width / gap (um)"]] == fmt(ln["width_um"]) + (
                     "" if ln["gap_um"] is None else f" / {fmt(ln['gap_um'])}")
+                off = round(ln["impedance_error_pct"], 2) + 0.0                 # off target, percent
                 assert r[col["impedance (ohm)"]] == (f"Zdiff {fmt(ln['z_diff_ohm'])}" if ln["z_diff_ohm"] is not None
-                                                     else f"Z0 {fmt(ln['z0_ohm'])}")
+                                                     else f"Z0 {fmt(ln['z0_ohm'])}") + f" ({'+' if off >= 0 else ''}{fmt(off)} %)"
                 assert r[col["target (ohm)"]].startswith(fmt(ln["target_ohm"]))
                 assert r[col["loss (dB/m)"]] == f"{fmt(ln['loss_db_per_m'])} at {fmt(ln['frequency_ghz'])} GHz"
                 if ln["length_mm"] is None:
                     assert r[col["insertion loss (dB)"]] == "-"
                 else:                                   # dB/m x m (definition)
-                    assert r[col["insertion loss (dB)"]] == fmt(ln["loss_db_per_m"] * ln["length_mm"] / 1000)
+                    assert r[col["insertion loss (dB)"]] == (f"{fmt(ln['loss_db_per_m'] * ln['length_mm'] / 1000)} over "
+                                                             f"{fmt(ln['length_mm'])} mm")
                 y = ln["impedance_yield"]
                 assert r[col["impedance yield"]].startswith(fmt(y["yield_pct"]) + " %")
                 dom = max(y["variance_share"], key=y["variance_share"].get)    # largest variance share

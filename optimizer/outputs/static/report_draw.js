@@ -225,34 +225,33 @@ function yieldText(y) {
   return fmt(y.yield_pct, 4) + ' %' + (typeof y.stderr_pct === 'number' ? ' +/- ' + fmt(y.stderr_pct, 2) + ' %' : '');
 }
 function dominantText(y) {
-  return y.dominant ? y.dominant + (typeof y.dominant_share_pct === 'number' ? ' (' + fmt(y.dominant_share_pct, 3) +
-    ' % of the variance)' : '') : '-';
+  return y.dominant ? y.dominant + (typeof y.dominant_share_pct === 'number' ? ', ' + fmt(y.dominant_share_pct, 3) +
+    ' % of the variance' : '') : '-';
 }
 // every controlled line of the candidate: layer, geometry, impedance against its target, loss, yield
 function drawLines(c) {
   var lines = c.lines || [];
   var withYield = lines.some(function (ln) { return ln.yield; });
   var withLength = lines.some(function (ln) { return typeof ln.insertion_loss_db === 'number' || typeof ln.length_mm === 'number'; });
-  var head = ['line', 'type', 'layer', 'width / gap (um)', 'impedance (ohm)', 'target (ohm)', 'off target (%)',
-    'loss (dB/m)'];
-  if (withLength) head.push('length (mm)', 'insertion loss (dB)');
+  var head = ['line', 'type, layer', 'width / gap (um)', 'impedance (ohm)', 'target (ohm)', 'loss (dB/m)'];
+  if (withLength) head.push('insertion loss (dB)');
   if (withYield) head.push('impedance yield', 'dominant tolerance');
   var withField = lines.some(function (ln) { return ln.field; });
   if (withField) head.push('field check');
   fill('line-table', lines.length ? [el('thead', null, el('tr', null, head.map(function (t, k) {
-    return el('th', {'class': k < 3 || t === 'dominant tolerance' || t === 'field check' ? 't' : ''}, t); }))),
+    return el('th', {'class': k < 2 || t === 'dominant tolerance' || t === 'field check' ? 't' : ''}, t); }))),
     el('tbody', null, lines.map(function (ln) {
-      var cells = [el('td', {'class': 't'}, ln.name), el('td', {'class': 't'}, fmt(ln.type)), el('td', {'class': 't'}, fmt(ln.layer)),
+      var off = typeof ln.error_pct === 'number' ? Number(ln.error_pct.toFixed(2)) + 0 : null;
+      var cells = [el('td', {'class': 't'}, ln.name), el('td', {'class': 't'}, fmt(ln.type) + ' on ' + fmt(ln.layer)),
         el('td', null, fmt(ln.width_um) + (typeof ln.gap_um === 'number' ? ' / ' + fmt(ln.gap_um) : '')),
         el('td', {title: ln.model === 'field' ? 'decided by the 2-D field solution' : (ln.model ? 'decided by the closed form' : '')},
-          ln.z_ohm === null ? '-' : zText(ln) + ' ' + fmt(ln.z_ohm)),
+          (ln.z_ohm === null ? '-' : zText(ln) + ' ' + fmt(ln.z_ohm)) + (off === null ? '' : ' (' + (off >= 0 ? '+' : '') + fmt(off) + ' %)')),
         el('td', null, fmt(ln.target_ohm) + (typeof ln.tolerance_pct === 'number' ? ' +/- ' + fmt(ln.tolerance_pct, 3) + ' %' : '')),
-        el('td', null, typeof ln.error_pct === 'number' ? fmt(Number(ln.error_pct.toFixed(2)) + 0) : '-'),
         el('td', null, fmt(ln.loss_db_per_m) + (typeof ln.frequency_ghz === 'number' ? ' at ' + fmt(ln.frequency_ghz) + ' GHz' : ''))];
-      if (withLength) cells.push(el('td', null, fmt(ln.length_mm)), el('td', {title: ln.insertion_loss_derived ?
-        'loss per metre x length' : ''}, fmt(ln.insertion_loss_db)));
+      if (withLength) cells.push(el('td', {title: ln.insertion_loss_derived ? 'loss per metre x length' : ''},
+        typeof ln.insertion_loss_db === 'number' ? fmt(ln.insertion_loss_db) + ' over ' + fmt(ln.length_mm) + ' mm' : '-'));
       if (withYield) cells.push(el('td', {'class': ln.yield ? 'yield' : ''}, ln.yield ? yieldText(ln.yield) : '-'),
-        el('td', {'class': 't'}, ln.yield ? dominantText(ln.yield) : '-'));
+        el('td', {'class': 't dom'}, ln.yield ? dominantText(ln.yield) : '-'));
       if (withField) cells.push(el('td', {'class': 't'}, ln.field ? (ln.field.mismatch ? 'MISMATCH ' : 'ok ') + ln.field.text : '-'));
       return el('tr', {'data-line': ln.name, 'class': ln.field && ln.field.mismatch ? 'mismatch' : ''}, cells);
     }))] : []);
