@@ -173,8 +173,7 @@ def _line_layer(value: Any) -> int | None:
     return int(K.check_number(value, (1, 8, False, False), integer=True))
 
 
-_LINE_NAME = {"pattern": r"[A-Za-z0-9][A-Za-z0-9_.-]{0,39}",
-              "rule": "a short name of letters, digits, '-', '_' or '.'"}
+_LINE_NAME = {"pattern": r"[A-Za-z0-9][A-Za-z0-9_.-]{0,39}", "rule": "a short name of letters, digits, '-', '_' or '.'"}
 
 
 class LineEntryModel(LineModel):

@@ -21,18 +21,14 @@ Several lines (``study.lines``): one table per line, the worst line's columns (:
 
 Constraint columns (each is a relative excess over its limit, so 0.1 means 10 % over):
 
-``impedance``      |Z/Z_target - 1| / nominal_error - 1 after the width solve (the width is clamped
-                   into the allowed range; a target the range cannot reach shows here);
-``width_range``    the fabricator's minimum trace for the signal copper weight against the
-                   study's maximum width;
+``impedance``      |Z/Z_target - 1| / nominal_error - 1 after the width solve (clamped to the range);
+``width_range``    the fabricator's minimum trace for the signal copper against the maximum width;
 ``gap_space``      pairs and coplanar: the fabricator's minimum space against the gap;
 ``equation_range`` +1 when an impedance equation was used outside its stated validity range;
 ``total_thickness``, ``peak_strain``, ``signal_strain``, ``loss``: the study limits;
-``fatigue_life``   the largest copper strain range over the strain range Engelmaier's equation
-                   allows for the required cycles (exactly equivalent to cycles >= required,
-                   because the life is monotone in the strain range);
-``material_strain``, ``cover_radius``, ``cover``, ``glass``, ``leaves``: every material's limit
-                   (:mod:`.constraints`).
+``fatigue_life``   the largest copper strain range over the range Engelmaier's equation allows for
+                   the required cycles (equivalent to cycles >= required: life is monotone in range);
+``material_strain``, ``cover_radius``, ``cover``, ``glass``, ``leaves``: :mod:`.constraints`.
 """
 from __future__ import annotations
 
@@ -45,6 +41,7 @@ from strainline.models.bending import bend_strains
 from strainline.models.fatigue import engelmaier_cycles, engelmaier_strain_range, strain_range
 from strainline.models.units import MM, UM
 from strainline.optimizer.search import constraints as material
+from strainline.optimizer.search import kernel as _kernel
 from strainline.optimizer.search import multiline as _ml
 from strainline.optimizer.search.evaluation import Evaluation, quantize  # noqa: F401 - re-exported
 from strainline.optimizer.search.faststrain import copper_strains as _copper_strains, fast_tables
@@ -235,7 +232,8 @@ class Problem:
         sp, study = self.space, self.space.study
         n = x.shape[0]
         fast = self.fast is not None and not sp.unbonded
-        if fast:
+        use_kernel = _kernel.enabled()         # compiled mechanics (:mod:`.kernel`), equal to 1e-12
+        if fast or use_kernel:
             slots = sp.slots(x) if slots is None else slots
         else:
             t, e, leaf, slots = sp.mechanics(x, slots)
@@ -250,7 +248,9 @@ class Problem:
         for z, zone in enumerate(zones):
             self.zone = zone
             try:
-                if fast:
+                if use_kernel:
+                    total, cu_peak, ratio = _kernel.zone_mechanics(self, slots, zone)
+                elif fast:
                     total, cu_peak, ratio = self.copper_strains(slots, dielectric=True)
                 else:
                     bs = self.strains(t, e, leaf)
