@@ -140,7 +140,15 @@ def material_constraints(problem: Any, slots: dict[str, np.ndarray], total_m: np
     zone = getattr(problem, "zone", None) or study.bend     # the bend zone being evaluated
     r = zone.inner_radius_mm * MM
     ct, cb = slots["cover_top"], slots["cover_bot"]
-    state = leaf_state(sp, slots) if sp.unbonded else None
+    # the leaf state does not depend on the zone: once per batch (the batch's own arrays identify it)
+    state = None
+    if sp.unbonded:
+        got = problem.__dict__.get("_leaf_state")
+        if got is not None and got[0] is slots["cu"] and got[1] is slots["leaves"]:
+            state = got[2]
+        else:
+            state = leaf_state(sp, slots)
+            problem.__dict__["_leaf_state"] = (slots["cu"], slots["leaves"], state)
     if "material_strain" in want:
         out["material_strain"] = ratio / elongation_fraction(study) - 1.0
     if "cover_radius" in want:

@@ -26,7 +26,10 @@ import numpy as np
 from strainline.models.units import UM
 
 
-def _key(tb: Any) -> str:
+def _key(tb: Any) -> Any:
+    """The table's state: its set_rows count when it has one (cheap), else a hash of its rows."""
+    if hasattr(tb, "version"):
+        return (id(tb), tb.version)
     r = tb.r_field if tb.r_field is not None else np.zeros(1)
     return hashlib.sha1(np.ascontiguousarray(tb.width_m).tobytes() + np.ascontiguousarray(r).tobytes()).hexdigest()
 

@@ -140,6 +140,7 @@ class LineTable:
     target_ohm: float = math.nan
     r_field: np.ndarray | None = None         # (n, 3) ln(field / closed form) of Z, eps_eff, tan_eff
     exact: np.ndarray | None = None           # rows field-solved directly at their own width
+    version: int = 0                          # bumped by every set_rows (caches of derived figures)
 
     def set_rows(self, rows: np.ndarray, width_m: np.ndarray, r: np.ndarray, ok: np.ndarray) -> None:
         """Store rows' widths and corrections and recompute their impedance, eps_eff and loss."""
@@ -167,6 +168,7 @@ class LineTable:
         self.dielectric_db_per_m[rows] = diel
         self.loss_db_per_m[rows] = cond + diel
         self.geometry = self.geometry.with_(width_m=self.width_m)
+        self.version += 1
 
     def index(self, slots: dict[str, np.ndarray]) -> np.ndarray:
         """Table row of every candidate, from the per-slot option indices (:meth:`Space.slots`)."""

@@ -214,13 +214,11 @@ class Problem:
     def row_yield(self) -> Any:
         """Impedance yield of every line-table row (:mod:`.yieldcalc`), recomputed when the table's
         widths or corrections change (the field refinement updates rows)."""
-        import hashlib
-
+        from strainline.optimizer.search.hatchsearch import _key
         from strainline.optimizer.search.yieldcalc import table_yield
 
         tb = self.table
-        h = hashlib.sha1(np.ascontiguousarray(tb.width_m).tobytes()
-                         + np.ascontiguousarray(tb.r_field if tb.r_field is not None else 0.0).tobytes()).hexdigest()
+        h = _key(tb)                 # the table's set_rows count
         got = getattr(self, "_yield_cache", None)
         if got is None or got[0] != h:
             got = (h, table_yield(tb, self.space, self.catalog, seed=int(self.space.study.search.seed)))
