@@ -84,8 +84,16 @@ def test_front_candidates_over_the_hatch_carry_the_3d_solution(tmp_path, run_cli
     for c in over:
         h = c["line"]["hatch"]
         assert h["fill"] == pytest.approx(1 - (1 - 100 / 400) ** 2, abs=1e-4)
-        assert h["hatch_factor"] > 1.0 and h["factor_source"] == "3-D field solution"
-        assert h["z_ohm"] == pytest.approx(c["line"]["z0_ohm"] * h["hatch_factor"], rel=1e-4)
+        assert h["hatch_factor"] > 1.0 and h["factor_source"].startswith("3-D field solution")
+        solid = c["line"]["solid_plane"]
+        # at the solid-plane width: the field-accurate solid-plane impedance times the 3-D factor there
+        assert h["z_at_solid_width_ohm"] == pytest.approx(solid["z0_ohm"] * h["hatch_factor_at_solid_width"],
+                                                           rel=1e-4)
+        # the width to build is the one over the hatch; there the impedance meets the target
+        assert c["line"]["decided_over_hatch"] and c["line"]["width_um"] == h["width_for_target_um"]
+        assert c["line"]["width_um"] > solid["width_um"] and abs(h["error_pct"]) < 0.5
+        assert c["line"]["z0_ohm"] == pytest.approx(h["z_ohm"], rel=1e-9)
+        assert h["converged"] and 2 <= h["solves"] <= 4
         assert any(f["code"] == "hatched-reference" for f in c["findings"])
     # a coupon-calibrated factor overrides the solver's
     out2 = tmp_path / "out2"
@@ -141,7 +149,8 @@ def test_the_search_pays_for_the_hatch_in_width(tmp_path, run_cli):
         if h is None:
             continue
         w_h = h["width_over_hatch_um"]
-        assert w_h is not None and 75 <= w_h <= 400 and w_h > c["line"]["width_um"]
+        solid = c["line"]["solid_plane"]
+        assert w_h is not None and 75 <= w_h <= 400 and w_h > solid["width_um"] and w_h == c["line"]["width_um"]
         g = c["line"]["geometry"]
 
         def z(width_um, g=g):
@@ -149,7 +158,8 @@ def test_the_search_pays_for_the_hatch_in_width(tmp_path, run_cli):
                 width_m=width_um * 1e-6, height_m=g["height_um"] * 1e-6, thickness_m=g["thickness_um"] * 1e-6,
                 er=g["er"], cover_m=g["cover_um"] * 1e-6, cover_er=g["cover_er"])).z0_ohm).reshape(-1)[0])
 
-        corr = c["line"]["z0_ohm"] / z(c["line"]["width_um"])
+        corr = solid["z0_ohm"] / z(solid["width_um"])
+        # the factor is the 3-D solution's at w_h itself (not at the solid-plane width)
         assert z(w_h) * corr * h["hatch_factor"] == pytest.approx(50.0, rel=2e-3)
     # a coarse hatch whose factor no width in range can absorb leaves only solid planes on the front
     out2 = tmp_path / "out2"

@@ -38,7 +38,7 @@ def _planes(kind: str, sig: int, n_cu: int) -> list[int]:
 def hatch_task_of(problem: Any, slots: dict[str, np.ndarray], row: int) -> tuple | None:
     """The 3-D hatch solve :func:`line_record` will need for this line of this candidate (or None),
     so a front's solves can run in parallel first (:func:`.hatchline.prefetch_hatch`)."""
-    from strainline.optimizer.search.hatchline import hatch_task
+    from strainline.optimizer.search.hatchline import hatch_row
 
     study = problem.space.study
     if not study.stack.ground_hatch:
@@ -48,7 +48,7 @@ def hatch_task_of(problem: Any, slots: dict[str, np.ndarray], row: int) -> tuple
     hatched = [p for p in _planes(study.line.type, sig, problem.space.n_cu) if cov[p] < 1.0]
     if not hatched:
         return None
-    return hatch_task(study, problem.table, row, hatched, sig, {p: float(cov[p]) for p in hatched})
+    return hatch_row(study, problem.table, row, hatched, sig, {p: float(cov[p]) for p in hatched})
 
 
 def line_record(problem: Any, slots: dict[str, np.ndarray], row: int,
@@ -158,6 +158,20 @@ def line_record(problem: Any, slots: dict[str, np.ndarray], row: int,
             hcache.close()
         if hrec is not None:
             line["hatch"] = hrec
+            w_h = hrec.get("width_for_target_um")
+            if w_h is not None:
+                # over a hatch the width to build is the one that meets the target there; the
+                # solid-plane figures stay beside it (loss and pair spacing keep their solid-plane
+                # values, a stated limit)
+                pair = kind in ("coupled-microstrip", "coupled-stripline")
+                z_solid = line["z_diff_ohm"] if pair else line["z0_ohm"]
+                scale = hrec["z_ohm"] / z_solid if z_solid else float("nan")
+                line["solid_plane"] = {k: line[k] for k in ("width_um", "z0_ohm", "z_diff_ohm", "impedance_error_pct")}
+                line["width_um"] = w_h
+                line["z0_ohm"] = _num(line["z0_ohm"] * scale) if line["z0_ohm"] is not None else None
+                line["z_diff_ohm"] = _num(line["z_diff_ohm"] * scale) if line["z_diff_ohm"] is not None else None
+                line["impedance_error_pct"] = _num(100 * (hrec["z_ohm"] / ln.target_ohm - 1))
+                line["decided_over_hatch"] = True
         findings += hnotes
     return line, findings
 

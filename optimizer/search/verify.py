@@ -113,7 +113,9 @@ def build_tasks(front: Mapping[str, Any], target_ohm: float | None = None,
                 "index": i,
                 "line_index": k,
                 "kind": kind,
-                "width_um": _num(line.get("width_um")),
+                # over a hatch the 2-D check is of the solid-plane row the search decided on (the
+                # widening over the hatch is the 3-D solution's, recorded in line.hatch)
+                "width_um": _num((line.get("solid_plane") or {}).get("width_um", line.get("width_um"))),
                 "gap_um": _num(line.get("gap_um")),
                 "height_um": _num(geo.get("height_um")),
                 "height_top_um": _num(geo.get("height_top_um")),
