@@ -133,3 +133,14 @@ def width_over_hatch_um(pb: Any, row: int, fill: float) -> float | None:
             w = t["w"][k][row]
             return float(w / UM) if np.isfinite(w) else None
     return None
+
+
+def factor_at(pb: Any, row: int, fill: float) -> float | None:
+    """The search's hatch factor of table row ``row`` over the hatch of fill ``fill`` (interpolated
+    from the representative rows), or None."""
+    t = hatch_rows(pb)
+    for k, f in enumerate(t["fills"]):
+        if abs(f - fill) < 1e-6:
+            v = float(t["f"][k][row])
+            return v if np.isfinite(v) else None
+    return None
