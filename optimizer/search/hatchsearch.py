@@ -34,6 +34,11 @@ def _key(tb: Any) -> Any:
     return hashlib.sha1(np.ascontiguousarray(tb.width_m).tobytes() + np.ascontiguousarray(r).tobytes()).hexdigest()
 
 
+#: Rows per hatch option solved in 3-D for the search's factor (at distinct heights; the rest are
+#: interpolated in log height).
+REPRESENTATIVES = 7
+
+
 def hatch_rows(pb: Any) -> dict[str, np.ndarray]:
     """Per hatch option (fills ``fills`` (K,)): factor ``f`` (K, rows), width over the hatch ``w``
     (K, rows) and constraint ``g`` (K, rows); recomputed when the table changes."""
@@ -52,8 +57,13 @@ def hatch_rows(pb: Any) -> dict[str, np.ndarray]:
     hatches = study.stack.ground_hatch
     n = tb.n_rows
     h = np.asarray(tb.height_m, float)
-    order = np.argsort(h)
-    reps = np.unique(order[[0, n // 2, n - 1]])
+    # representative rows at distinct heights spanning the table, in increasing height (np.interp
+    # needs increasing abscissae; the factor depends mostly on the height over the hatch)
+    order = np.argsort(h, kind="stable")
+    hs = h[order]
+    first = np.flatnonzero(np.concatenate([[True], np.diff(hs) > 0]))      # first row of each height
+    pick = first[np.unique(np.linspace(0, first.size - 1, min(REPRESENTATIVES, first.size)).round().astype(int))]
+    reps = order[pick]
     calibrated = study.line.hatch_correction
     fills, F, W, G = [], [], [], []
     cache = FieldCache()
