@@ -92,7 +92,8 @@ def build_tasks(front: Mapping[str, Any], target_ohm: float | None = None,
     """One plain-dict task per line of every candidate (picklable; what the workers receive)."""
     tasks = []
     for i, cand in enumerate(front.get("candidates", [])):
-        lines = cand.get("lines") or [cand.get("line", {}) or {}]
+        # the first line is the candidate's ``line`` (``lines[0]`` repeats it), the others ``lines[1:]``
+        lines = [cand.get("line", {}) or {}] + list((cand.get("lines") or [])[1:])
         for k, line in enumerate(lines):
             name = line.get("name") if isinstance(line, Mapping) else None
             s_target, s_wmin, s_wmax = study_target(front, name)
@@ -253,21 +254,20 @@ def verify_front(front: dict, workers: int = 1, dask_address: str | None = None,
     seconds = time.perf_counter() - t0
     cands = out.get("candidates", [])
     for i, cand in enumerate(cands):
+        cand.setdefault("line", {})["field_check"] = checks[(i, 0)]
         if cand.get("lines"):
-            for k, line in enumerate(cand["lines"]):
-                line["field_check"] = checks[(i, k)]
-            cand["line"] = cand["lines"][0]
-        else:
-            cand.setdefault("line", {})["field_check"] = checks[(i, 0)]
+            cand["lines"][0] = cand["line"]
+            for k in range(1, len(cand["lines"])):
+                cand["lines"][k]["field_check"] = checks[(i, k)]
     fc = [c for c in checks.values()]
 
     def passed(c: Mapping[str, Any]) -> bool:       # a candidate holds when every line holds
-        return all(ln["field_check"]["passed"] for ln in (c.get("lines") or [c["line"]]))
+        return all(ln["field_check"]["passed"] for ln in [c["line"]] + list((c.get("lines") or [])[1:]))
 
     def reasons(c: Mapping[str, Any]) -> list[str]:
         many = len(c.get("lines") or []) > 1
         return [(f"line {ln.get('name')}: " if many else "") + r
-                for ln in (c.get("lines") or [c["line"]]) for r in ln["field_check"]["reasons"]]
+                for ln in [c["line"]] + list((c.get("lines") or [])[1:]) for r in ln["field_check"]["reasons"]]
 
     failed = [c for c in cands if not passed(c)]
     removed = []
