@@ -86,14 +86,11 @@ def test_front_candidates_over_the_hatch_carry_the_3d_solution(tmp_path, run_cli
         assert h["fill"] == pytest.approx(1 - (1 - 100 / 400) ** 2, abs=1e-4)
         assert h["hatch_factor"] > 1.0 and h["factor_source"].startswith("3-D field solution")
         solid = c["line"]["solid_plane"]
-        # at the solid-plane width: the field-accurate solid-plane impedance times the 3-D factor there
-        assert h["z_at_solid_width_ohm"] == pytest.approx(solid["z0_ohm"] * h["hatch_factor_at_solid_width"],
-                                                           rel=1e-4)
         # the width to build is the one over the hatch; there the impedance meets the target
         assert c["line"]["decided_over_hatch"] and c["line"]["width_um"] == h["width_for_target_um"]
         assert c["line"]["width_um"] > solid["width_um"] and abs(h["error_pct"]) < 0.5
         assert c["line"]["z0_ohm"] == pytest.approx(h["z_ohm"], rel=1e-9)
-        assert h["converged"] and 2 <= h["solves"] <= 4
+        assert h["converged"] and 1 <= h["solves"] <= 4
         assert any(f["code"] == "hatched-reference" for f in c["findings"])
     # a coupon-calibrated factor overrides the solver's
     out2 = tmp_path / "out2"
@@ -168,3 +165,34 @@ def test_the_search_pays_for_the_hatch_in_width(tmp_path, run_cli):
     assert code == 0, err
     d2 = json.loads((out2 / "front.json").read_text())
     assert d2["candidates"] and all("hatch" not in c["line"] for c in d2["candidates"])
+
+
+def test_search_factor_follows_direct_3d_solves(tmp_path):
+    # the search screens hatched candidates with a factor interpolated between representative rows;
+    # against direct 3-D solves of other rows' own cross-sections it stays within 3 % (an earlier
+    # version interpolated over unsorted heights and was up to 40 % low)
+    from strainline.optimizer.inputs.catalog import load_catalog
+    from strainline.optimizer.inputs.study import load_study
+    from strainline.optimizer.search.fieldcache import FieldCache
+    from strainline.optimizer.search.hatchline import cached_hatch_solve, candidate_geometry
+    from strainline.optimizer.search.hatchsearch import hatch_rows
+    from strainline.optimizer.search.linetable import table_options
+    from strainline.optimizer.search.problem import build_problem
+    from strainline.optimizer.search.space import build_space
+
+    st = load_study(_write(tmp_path, pitch="500", width="150", angle="45"))
+    cat = load_catalog()
+    with table_options(impedance="closed-form"):
+        pb = build_problem(build_space(st, cat), cat)
+    tb = pb.table
+    f = hatch_rows(pb)["f"][0]
+    p, w, a = pb.space.study.stack.ground_hatch[0]
+    rows = np.random.default_rng(2).choice(tb.n_rows, 6, replace=False)
+    cache = FieldCache()
+    try:
+        for r in rows:
+            g, hatch, below = candidate_geometry(pb.space.study, tb, int(r), p, w, a, False)
+            direct = cached_hatch_solve("microstrip", g, hatch, cache, layers_below=below).ratio
+            assert f[r] == pytest.approx(direct, rel=0.03), (r, tb.height_m[r])
+    finally:
+        cache.close()

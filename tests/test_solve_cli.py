@@ -156,7 +156,8 @@ def test_reported_impedance_recomputes_from_the_reported_geometry(solved):
     front, _ = solved
     for c in front["candidates"]:
         ln, g = c["line"], c["line"]["geometry"]
-        geom = LineGeometry(width_m=ln["width_um"] * UM, height_m=g["height_um"] * UM,
+        # over a hatched plane the closed-form record is of the solid-plane row (line.solid_plane)
+        geom = LineGeometry(width_m=ln.get("solid_plane", ln)["width_um"] * UM, height_m=g["height_um"] * UM,
                             thickness_m=g["thickness_um"] * UM, er=g["er"], cover_m=g["cover_um"] * UM,
                             cover_er=g["cover_er"])
         r = evaluate_line("microstrip", geom)
@@ -280,7 +281,8 @@ def test_reported_figures_match_the_bend_and_line_commands(solved, tmp_path, run
                                    [x["strain_top_pct"] for x in c["layers"]], rtol=1e-12)
         assert min(rep["cycles_to_failure"].values()) == pytest.approx(c["bend"]["cycles_to_failure"], rel=1e-9)
         ln, g = c["line"], c["line"]["geometry"]
-        args = ["line", "microstrip", "--width-um", repr(ln["width_um"]), "--height-um", repr(g["height_um"]),
+        args = ["line", "microstrip", "--width-um", repr(ln.get("solid_plane", ln)["width_um"]),
+                "--height-um", repr(g["height_um"]),
                 "--thickness-um", repr(g["thickness_um"]), "--er", repr(g["er"]), "--json"]
         if g["cover_um"]:
             args += ["--cover-um", repr(g["cover_um"]), "--cover-er", repr(g["cover_er"])]

@@ -189,7 +189,7 @@ def _prefetch_hatches(problem: Problem, X: np.ndarray, ev: Any) -> None:
     """Solve the front's distinct 3-D hatch cross-sections in parallel into the field cache."""
     from strainline.optimizer.search.fieldcache import FieldCache
     from strainline.optimizer.search.frontline import hatch_task_of
-    from strainline.optimizer.search.hatchline import prefetch_hatch
+    from strainline.optimizer.search.hatchfront import prefetch_hatch
 
     slots = problem.space.slots(X)
     tasks = []

@@ -38,7 +38,7 @@ def _planes(kind: str, sig: int, n_cu: int) -> list[int]:
 def hatch_task_of(problem: Any, slots: dict[str, np.ndarray], row: int) -> tuple | None:
     """The 3-D hatch solve :func:`line_record` will need for this line of this candidate (or None),
     so a front's solves can run in parallel first (:func:`.hatchline.prefetch_hatch`)."""
-    from strainline.optimizer.search.hatchline import hatch_row
+    from strainline.optimizer.search.hatchfront import hatch_row
 
     study = problem.space.study
     if not study.stack.ground_hatch:
@@ -149,7 +149,7 @@ def line_record(problem: Any, slots: dict[str, np.ndarray], row: int,
     if hatched and study.stack.ground_hatch:
         # hatched planes given as geometry: a 3-D field solution of this candidate over its hatch
         from strainline.optimizer.search.fieldcache import FieldCache
-        from strainline.optimizer.search.hatchline import candidate_hatch
+        from strainline.optimizer.search.hatchfront import candidate_hatch
         hcache = FieldCache()
         try:
             hrec, hnotes = candidate_hatch(study, tb, row, hatched, sig, {p: float(cov[p]) for p in hatched},
