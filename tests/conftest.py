@@ -60,8 +60,10 @@ _put_checkout_on_path()
 def pytest_sessionstart(session):
     missing = _missing_dependencies()
     if missing:
-        pytest.exit(f"this Python ({sys.executable}) lacks {', '.join(missing)}: set up with the README's "
-                    "test command, or pip install -e \".[test]\"", returncode=4)
+        pytest.exit(f"this Python ({sys.executable}) lacks {', '.join(missing)}; the suite needs the test "
+                    "dependencies: run the README's test command, python3 -m venv .venv && . .venv/bin/activate && "
+                    "pip install \".[test]\" && python -m pytest -q (or pip install -e \".[test]\" into this Python)",
+                    returncode=4)
 
 
 @pytest.fixture

@@ -14,7 +14,7 @@ import numpy as np
 
 from strainline.models.units import UM
 from strainline.optimizer.search import multiline as _ml
-from strainline.optimizer.search.frontline import line_record
+from strainline.optimizer.search.frontline import _finding, _num, line_record
 from strainline.optimizer.search.candidate import candidate_stackup
 from strainline.optimizer.search.infeasible import explain_infeasible
 from strainline.optimizer.search.linelayers import view_slots
@@ -31,19 +31,6 @@ CAUTION = (
 )
 #: Reference point of the hypervolume in normalized objective space (ideal = 0, nadir = 1 on every axis).
 HV_REFERENCE = 1.1
-
-
-def _num(x: Any) -> float | None:
-    """A JSON-safe float (None for nan/inf)."""
-    try:
-        v = float(x)
-    except (TypeError, ValueError):
-        return None
-    return v if math.isfinite(v) else None
-
-
-def _finding(code: str, severity: str, message: str, source: str) -> dict[str, str]:
-    return {"code": code, "severity": severity, "message": message, "source": source}
 
 
 # one candidate -> Stackup (:mod:`.candidate`, re-exported here)

@@ -17,6 +17,7 @@ from strainline.models.units import UM
 
 
 def _num(x: Any) -> float | None:
+    """A JSON-safe float (None for nan/inf); the one every front record uses."""
     try:
         v = float(x)
     except (TypeError, ValueError):

@@ -258,15 +258,14 @@ def prefetch_hatch(rows: list[HatchRow], cache: Any, workers: int | None = None)
 
     if cache is None or not cache.enabled or not rows:
         return 0
-    todo: dict[str, HatchRow] = {}
+    todo: dict[tuple, HatchRow] = {}      # distinct candidates: first-solve key and the row's target data
     for ctx in rows:
         sec = section_from_geometry(ctx.kind, ctx.geom, ctx.below, (), None)
         key = point_key({"hatch_solver": SOLVER_VERSION, "section": asdict(sec), "hatch": asdict(ctx.hatch),
                          "mesh": {}})
-        todo.setdefault(key + repr((ctx.target_ohm, ctx.corr, ctx.width_lo_m, ctx.width_hi_m, ctx.calibrated)),
-                        ctx)
-    have = cache.get_many([k[:64] for k in todo])
-    miss = [ctx for k, ctx in todo.items() if have.get(k[:64]) is None]
+        todo.setdefault((key, ctx.target_ohm, ctx.corr, ctx.width_lo_m, ctx.width_hi_m, ctx.calibrated), ctx)
+    have = cache.get_many([k[0] for k in todo])
+    miss = [ctx for k, ctx in todo.items() if have.get(k[0]) is None]
     if not miss:
         return 0
     n = max(1, min(len(miss), workers or os.cpu_count() or 1))

@@ -23,7 +23,6 @@ import hashlib
 from typing import Any
 
 import numpy as np
-from strainline.models.units import UM
 
 
 def _key(tb: Any) -> Any:
@@ -133,24 +132,3 @@ def hatch_width_constraint(pb: Any, slots: dict[str, np.ndarray], row: np.ndarra
         if m.any():
             g[m] = t["g"][k][row[m]]
     return g
-
-
-def width_over_hatch_um(pb: Any, row: int, fill: float) -> float | None:
-    """Width over the hatch of fill ``fill`` for table row ``row``, um (None if unknown)."""
-    t = hatch_rows(pb)
-    for k, f in enumerate(t["fills"]):
-        if abs(f - fill) < 1e-6:
-            w = t["w"][k][row]
-            return float(w / UM) if np.isfinite(w) else None
-    return None
-
-
-def factor_at(pb: Any, row: int, fill: float) -> float | None:
-    """The search's hatch factor of table row ``row`` over the hatch of fill ``fill`` (interpolated
-    from the representative rows), or None."""
-    t = hatch_rows(pb)
-    for k, f in enumerate(t["fills"]):
-        if abs(f - fill) < 1e-6:
-            v = float(t["f"][k][row])
-            return v if np.isfinite(v) else None
-    return None

@@ -11,7 +11,6 @@
 """
 from __future__ import annotations
 
-import math
 from typing import Any
 
 import numpy as np
@@ -19,15 +18,8 @@ import numpy as np
 from strainline.models.units import UM
 from strainline.optimizer.search.archive import total_violation
 from strainline.optimizer.search.candidate import candidate_stackup
+from strainline.optimizer.search.frontline import _num
 from strainline.optimizer.search.problem import CONSTRAINT_TEXT, Problem
-
-
-def _num(x: Any) -> float | None:
-    try:
-        v = float(x)
-    except (TypeError, ValueError):
-        return None
-    return v if math.isfinite(v) else None
 
 
 def _misses(problem: Problem, ev: Any, i: int) -> tuple[list[dict[str, Any]], list[str]]:
