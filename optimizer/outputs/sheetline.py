@@ -34,6 +34,11 @@ def impedance_rows(sheet: Sheet, cand: Mapping[str, Any], front: Mapping[str, An
         sheet.add("impedance", "line", "signal layer", line.get("layer"), "", "line.layer")
     sheet.add("impedance", "line", "line type", line.get("type"), "", "line.type")
     sheet.add("impedance", "line", "trace width as designed", line.get("width_um"), "um", "line.width_um")
+    solid = line.get("solid_plane") if isinstance(line.get("solid_plane"), Mapping) else None
+    if solid is not None:          # decided over a hatched plane: the solid-plane row stays for reference
+        sheet.add("impedance", "line", "width the same line would need over a solid plane", solid.get("width_um"),
+                  "um", "line.solid_plane.width_um", "not the width to build: the reference plane is hatched "
+                  "(line.hatch); the field-solver check below is of this solid-plane row")
     if line.get("gap_um") is not None:
         sheet.add("impedance", "line", "pair gap (edge to edge) as designed" if pair else "gap as designed",
                   line.get("gap_um"), "um", "line.gap_um")
@@ -54,9 +59,12 @@ def impedance_rows(sheet: Sheet, cand: Mapping[str, Any], front: Mapping[str, An
     # the figures of the model that decided (front.json line.impedance_model), then the closed form beside
     field = line.get("impedance_model") == "field"
     src = "2-D field solution" if field else "closed form"
+    if solid is not None:
+        src = "over the hatched plane: 2-D field solution x 3-D hatch factor"
     cf = line.get("closed_form")
     cf_note = ""
-    if field and isinstance(cf, Mapping) and is_num(cf.get("z_ohm_at_width")) and is_num(cf.get("width_um")):
+    if field and solid is None and isinstance(cf, Mapping) and is_num(cf.get("z_ohm_at_width")) \
+            and is_num(cf.get("width_um")):
         cf_note = (f"closed form at this width {cf['z_ohm_at_width']:.2f} ohm; its width for the target "
                    f"{cf['width_um']:.2f} um (the field solution decided)")
     if pair:
@@ -83,8 +91,9 @@ def impedance_rows(sheet: Sheet, cand: Mapping[str, Any], front: Mapping[str, An
               "line.geometry.method" if geom.get("method") else "line.method" if line.get("method") else "")
     fc = line.get("field_check")
     if isinstance(fc, Mapping):
-        fl = {"z0_ohm": ("field-solved impedance at the designed width", "ohm"),
-              "z_diff_ohm": ("field-solved differential impedance at the designed width", "ohm"),
+        at = "at the solid-plane width" if solid is not None else "at the designed width"
+        fl = {"z0_ohm": (f"field-solved impedance {at}", "ohm"),
+              "z_diff_ohm": (f"field-solved differential impedance {at}", "ohm"),
               "z_odd_ohm": ("field-solved odd-mode impedance", "ohm"),
               "z_even_ohm": ("field-solved even-mode impedance", "ohm"),
               "z_common_ohm": ("field-solved common-mode impedance", "ohm"),
