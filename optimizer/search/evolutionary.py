@@ -1,6 +1,15 @@
-"""NSGA-II with operators that respect the kind of each choice, seeded from a batched scan,
-followed by a Pareto local search around the archive; and plain random search.
+"""NSGA-II with operators that respect the kind of each choice, seeded by construction from the
+study's tables, followed by a Pareto local search around the archive; and plain random search.
 
+Every candidate the run evaluates counts in its budget, seeding included (``info`` splits the
+evaluations by phase), and no candidate is evaluated twice.
+
+* **Seeding** (:mod:`.seeding`). With a study problem the first candidates are constructed from
+  its line table (the line variables of every seed come from a combination whose row meets every
+  line constraint) and its per-option thicknesses (the stack within the thickness limit), and the
+  sampling weights follow the elite of every evaluated batch (cross-entropy method). Seeding
+  stops when it holds a population of feasible points or has spent its share of the budget
+  (``seed_share``); the first population is the best of it by Deb's feasibility rules.
 * **Operators.** Materials, copper types, placements and the signal layer are unordered: children
   take each variable from either parent (uniform crossover) and a mutation resets it at random.
   Thicknesses and weights are ordered *within* a material: a mutation steps to the next thinner or
@@ -8,15 +17,9 @@ followed by a Pareto local search around the archive; and plain random search.
   (:func:`variable_operators` reads which is which from the space; unknown variables are treated
   as unordered). The NSGA-II loop (Deb et al. 2002, IEEE TEVC 6(2)) runs on numpy arrays: pymoo's
   object-per-individual loop cost about 4 ms per evaluation here, far more than the evaluation.
-* **Seeding.** A batched random scan (vectorized, far cheaper per candidate than a generation)
-  collects feasible points for the first population; its evaluations are counted and reported
-  separately from the budget (``info["scan_evaluations"]``).
 * **Budget use.** The stagnation stop scales with the budget (a third of the generations the
-  budget allows, at least 30); what is left of the budget then goes to a Pareto local search
-  (Paquete, Chiarandini & Stuetzle 2004): every single-variable neighbour of each archive point
-  not yet explored, in batches, until the archive stops changing; then the two-variable
-  neighbours (variables next to each other in the coding first), until the budget is spent; the
-  flipped stack of every archive point (:func:`mirror_map`) is a starting point too.
+  budget allows, at least 30); what is left then goes to a Pareto local search
+  (:mod:`.localsearch`).
 """
 from __future__ import annotations
 
@@ -27,9 +30,12 @@ import numpy as np
 
 from strainline.optimizer.search.archive import Archive, SearchResult, hypervolume
 from strainline.optimizer.search.exhaustive import Evaluator, space_size
+from strainline.optimizer.search.localsearch import Seen, flip, mirror_map  # noqa: F401
+from strainline.optimizer.search.localsearch import local_search as pareto_local_search
+from strainline.optimizer.search.seeding import RandomSeeder, build_seeder
 
-#: Scan at most this many candidates per batch while seeding.
-SCAN_BATCH = 65536
+#: Share of the budget the seeding may spend (it stops earlier with a population of feasible points).
+SEED_SHARE = 0.1
 
 
 class VariableOps:
@@ -82,56 +88,6 @@ def variable_operators(space: Any = None, sizes: np.ndarray | None = None) -> li
     return ops
 
 
-def mirror_map(space: Any) -> np.ndarray | None:
-    """Index map of the flipped stack (top <-> bottom) of an unsymmetric study whose signal may sit
-    on either face: ``x_flipped = table[k][x[:, src[k]]]`` per variable, as (src, table) pairs in an
-    object array; None when a variable has no known mirror. The flipped stack is a different design
-    (the inside face of the bend changes) but often a near one, so the local search visits both."""
-    if space is None or space.study.stack.symmetric or len(space.sig_opts) < 2:
-        return None
-    N = space.n_cu
-    names = [v.name for v in space.variables]
-    col = {n: k for k, n in enumerate(names)}
-    place = list(space.place_opts)
-    out = []
-    for v in space.variables:
-        base, _, rest = v.name.partition("[")
-        i = rest.rstrip("]")
-        ident = np.arange(v.size)
-        if v.name == "signal_layer":
-            s = list(space.sig_opts)
-            if any(N - 1 - o not in s for o in s):
-                return None
-            out.append((col[v.name], np.array([s.index(N - 1 - o) for o in s])))
-        elif base == "copper":
-            out.append((col.get(f"copper[{N - 1 - int(i)}]"), ident))
-        elif base in ("film", "adhesive"):
-            out.append((col.get(f"{base}[{N - 2 - int(i)}]"), ident))
-        elif base == "placement":
-            flip = [place.index(2 if p == 2 else 1 - p) if (2 if p == 2 else 1 - p) in place else -1 for p in place]
-            if min(flip) < 0:
-                return None
-            out.append((col.get(f"placement[{N - 2 - int(i)}]"), np.array(flip)))
-        elif v.name in ("cover[top]", "cover[bottom]"):
-            out.append((col.get("cover[bottom]" if i == "top" else "cover[top]"), ident))
-        elif base == "coverage":
-            out.append((col.get(f"coverage[{N - 2 - int(i)}]"), ident))
-        elif v.name == "line_gap":
-            out.append((col[v.name], ident))
-        else:
-            return None
-        if out[-1][0] is None:
-            return None
-    table = np.empty(len(out), object)
-    table[:] = out
-    return table
-
-
-def flip(X: np.ndarray, table: np.ndarray) -> np.ndarray:
-    """The flipped stacks of rows X (:func:`mirror_map`)."""
-    return np.stack([t[X[:, src]] for src, t in table], axis=1)
-
-
 def mutate(X: np.ndarray, ops: list[VariableOps], rng: np.random.Generator, prob_var: float) -> np.ndarray:
     """Mutate integer rows: each variable with ``prob_var`` (at least one per row)."""
     X = np.array(X, np.int64)
@@ -174,70 +130,6 @@ def random_search(evaluate: Evaluator, sizes: np.ndarray, n_obj: int, budget: in
         arch.add(x, F, G)
         done += m
     return SearchResult("random", arch, done, space_size(sizes), time.perf_counter() - t0, "budget")
-
-
-def _scan(evaluate, sizes, arch, rng, want, limit):
-    """Random batches into the archive until ``want`` feasible rows or ``limit`` candidates (counts
-    only, so the same seed scans the same candidates)."""
-    seeds, done = [], 0
-    while done < limit and sum(len(s) for s in seeds) < want:
-        m = min(SCAN_BATCH, limit - done)
-        x = rng.integers(0, sizes, size=(m, sizes.size))
-        F, G = evaluate(x)
-        arch.add(x, F, G)
-        ok = np.all(G <= 0, axis=1) & np.all(np.isfinite(F), axis=1)
-        seeds.append(x[ok])
-        done += m
-    S = np.concatenate(seeds) if seeds else np.empty((0, sizes.size), np.int64)
-    return np.unique(S, axis=0)[:want] if len(S) else S, done
-
-
-def _neighbours(x: np.ndarray, sizes: np.ndarray, d: int) -> np.ndarray:
-    """Every point differing from ``x`` in exactly one variable (``d = 0``), or in exactly the two
-    variables ``k`` and ``k + d`` for some ``k``."""
-    alts = [np.delete(np.arange(int(s)), x[k]) for k, s in enumerate(sizes)]
-    out = []
-    if d == 0:
-        for k, alt in enumerate(alts):
-            nb = np.repeat(x[None, :], len(alt), axis=0)
-            nb[:, k] = alt
-            out.append(nb)
-    else:
-        for i in range(len(sizes) - d):
-            a, b = np.meshgrid(alts[i], alts[i + d], indexing="ij")
-            nb = np.repeat(x[None, :], a.size, axis=0)
-            nb[:, i], nb[:, i + d] = a.ravel(), b.ravel()
-            out.append(nb)
-    return np.concatenate(out) if out else np.empty((0, len(sizes)), np.int64)
-
-
-def _local_search(evaluate, sizes, arch, budget, rng, mirror=None):
-    """Pareto local search: the single-variable neighbours of each unexplored archive point until
-    the archive stops changing; then, with budget left, the two-variable neighbours, variables next
-    to each other in the coding first (a film and its adhesive, an adhesive and its placement)."""
-    used = 0
-    for d in range(len(sizes)):
-        explored: set[bytes] = set()
-        while used < budget:
-            anchors = arch.X if mirror is None else np.concatenate([arch.X, flip(arch.X, mirror)])
-            todo = [x for x in anchors if x.tobytes() not in explored]
-            if not todo:
-                break
-            batch, held = [], 0
-            for i in rng.permutation(len(todo)):
-                x = todo[i]
-                explored.add(x.tobytes())
-                batch.append(_neighbours(x, sizes, d))
-                held += len(batch[-1])
-                if held >= 4096:
-                    break
-            xb = np.concatenate(batch)[: budget - used]
-            F, G = evaluate(xb)
-            arch.add(xb, F, G)
-            used += len(xb)
-        if used >= budget:
-            return used, f"budget (local search at {'one-variable' if d == 0 else f'two-variable, distance {d},'} moves)"
-    return used, "local search converged (every archive point's one- and two-variable neighbours evaluated)"
 
 
 def _crowding(F: np.ndarray) -> np.ndarray:
@@ -285,38 +177,48 @@ def rank_and_crowding(F: np.ndarray, cv: np.ndarray) -> tuple[np.ndarray, np.nda
     return rank, crowd
 
 
-def _unique_new(X: np.ndarray, known: np.ndarray) -> np.ndarray:
-    """Rows of X that are neither in ``known`` nor repeated earlier in X."""
-    if not len(X):
-        return X
-    allx = np.concatenate([known, X])
-    _, first = np.unique(allx, axis=0, return_index=True)
-    keep = np.zeros(len(allx), bool)
-    keep[first] = True
-    return X[keep[len(known):]]
+def _seed(evaluate, seeder, rng, seen, run, pop_size: int, limit: int):
+    """Evaluate constructed seeds in batches of ``pop_size`` until ``pop_size`` of them are
+    feasible or ``limit`` are spent; the first population is the best by rank and crowding."""
+    Xs, Fs, cvs, used, stale = [], [], [], 0, 0
+    while used < limit and sum(int(np.sum(c <= 0)) for c in cvs) < pop_size and stale < 20:
+        X = seen.new(seeder.sample(min(pop_size, limit - used), rng))
+        if not len(X):
+            stale += 1                      # the seeder keeps drawing evaluated points
+            continue
+        F, cv = run(X)
+        seeder.learn(X, F, cv)
+        Xs.append(X), Fs.append(F), cvs.append(cv)
+        used += len(X)
+    X, F, cv = np.concatenate(Xs), np.concatenate(Fs), np.concatenate(cvs)
+    rank, crowd = rank_and_crowding(F, cv)
+    keep = np.lexsort((-crowd, rank))[:pop_size]
+    return X[keep], F[keep], cv[keep], used, int(np.sum(cv <= 0))
 
 
 def evolutionary(evaluate: Evaluator, sizes: np.ndarray, n_obj: int, n_con: int, budget: int, seed: int,
                  pop_size: int = 100, stagnation: int | None = None, progress: Any = None,
                  hv_bounds: tuple[np.ndarray, np.ndarray] | None = None, space: Any = None,
-                 scan: int | None = None, local_search: bool = True) -> SearchResult:
-    """NSGA-II (Deb et al. 2002) with kind-aware operators, a seeding scan and a Pareto local search.
+                 seeder: Any = None, seed_share: float = SEED_SHARE, local_search: bool = True) -> SearchResult:
+    """NSGA-II (Deb et al. 2002) with kind-aware operators, constructed seeds and a Pareto local search.
 
     The generational loop is NSGA-II as published: binary tournaments on (rank, crowding),
-    offspring by uniform crossover (probability 0.9) and :func:`mutate`, duplicates removed,
-    elitist survival of the best ``pop_size`` of parents and offspring by non-dominated rank and
-    crowding distance, constraints by Deb's feasibility rules. It is written on numpy arrays (a
-    generation costs about a millisecond besides the evaluation).
+    offspring by uniform crossover (probability 0.9) and :func:`mutate`, candidates evaluated
+    before dropped, elitist survival of the best ``pop_size`` of parents and offspring by
+    non-dominated rank and crowding distance, constraints by Deb's feasibility rules (Deb 2000,
+    CMAME 186). It is written on numpy arrays (a generation costs about a millisecond besides the
+    evaluation).
 
     Parameters
     ----------
     evaluate : callable
-        ``evaluate(x) -> (F, G)``.
+        ``evaluate(x) -> (F, G)``. When it carries the study problem (``evaluate.problem``, as
+        :class:`.parallel.ProblemEvaluator` does) the seeds are constructed from its tables.
     sizes : array of int
         Number of values of each variable.
     n_obj, n_con : int
     budget : int
-        Evaluations of the generations and the local search.
+        Most candidate evaluations of the whole run: seeding, generations and local search.
     seed : int
         Seed of every random choice (same seed, same front).
     pop_size : int
@@ -326,24 +228,33 @@ def evolutionary(evaluate: Evaluator, sizes: np.ndarray, n_obj: int, n_con: int,
     hv_bounds : (ideal, nadir), optional
         Record the archive hypervolume after every generation (``history``).
     space : Space, optional
-        The study space, for the operator kinds (:func:`variable_operators`).
-    scan : int, optional
-        Most candidates of the seeding scan (default ``50 * budget``; it stops once it has a
-        population of feasible points).
+        The study space, for the operator kinds (:func:`variable_operators`) and the seeder.
+    seeder : optional
+        An object with ``sample(n, rng)``, ``learn(X, F, cv)`` and ``report()``
+        (:mod:`.seeding`); default :func:`.seeding.build_seeder` of the space and problem, or
+        uniform random grid points.
+    seed_share : float
+        Share of the budget the seeding may spend (at least one population).
     local_search : bool
         Spend what the generations leave of the budget on the Pareto local search.
     """
     sizes = np.asarray(sizes, np.int64)
+    problem = getattr(evaluate, "problem", None)
+    if space is None and problem is not None:
+        space = problem.space
     ops = variable_operators(space, sizes)
     rng = np.random.default_rng(seed)
-    arch = Archive(n_obj, sizes.size)
     t0 = time.perf_counter()
-    seeds, scanned = _scan(evaluate, sizes, arch, rng, pop_size, 50 * budget if scan is None else scan)
+    if seeder is None:
+        seeder = build_seeder(space, problem, sizes) if space is not None else RandomSeeder(sizes)
+    arch = Archive(n_obj, sizes.size)
+    seen = Seen(sizes)
     stag = stagnation if stagnation is not None else max(30, budget // pop_size // 3)
     used = 0
 
     def run(x: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         nonlocal used
+        seen.add(x)
         F, G = evaluate(x)
         arch.add(x, F, G)
         used += len(x)
@@ -351,11 +262,10 @@ def evolutionary(evaluate: Evaluator, sizes: np.ndarray, n_obj: int, n_con: int,
         bad = ~np.all(np.isfinite(F), axis=1) | ~np.isfinite(cv)
         return np.where(np.isfinite(F), F, 1e30), np.where(bad & (cv <= 0), 1e30, np.where(np.isfinite(cv), cv, 1e30))
 
-    fill = rng.integers(0, sizes, size=(pop_size * 2, sizes.size))
-    X = _unique_new(np.concatenate([seeds, fill]), np.empty((0, sizes.size), np.int64))[: min(pop_size, budget)]
-    F, cv = run(X)
+    limit = min(budget, max(pop_size, int(seed_share * budget)))
+    X, F, cv, seed_used, seed_feasible = _seed(evaluate, seeder, rng, seen, run, pop_size, limit)
     rank, crowd = rank_and_crowding(F, cv)
-    quiet, gens, history, stopped = 0, 0, [], "budget"
+    quiet, empty, gens, history, stopped = 0, 0, 0, [], "budget"
     last_F = arch.F.copy()
     while used < budget:
         n_off = min(pop_size, budget - used)
@@ -365,13 +275,20 @@ def evolutionary(evaluate: Evaluator, sizes: np.ndarray, n_obj: int, n_con: int,
         par = np.where(better_a, a, b).reshape(2, n_off)
         p1, p2 = X[par[0]], X[par[1]]
         swap = (rng.random(p1.shape) < 0.5) & (rng.random((n_off, 1)) < 0.9)
-        child = mutate(np.where(swap, p2, p1), ops, rng, 1.0 / sizes.size)
-        child = _unique_new(child, X)
+        child = seen.new(mutate(np.where(swap, p2, p1), ops, rng, 1.0 / sizes.size))
         if not len(child):
-            child = _unique_new(mutate(X[rng.integers(0, len(X), n_off)], ops, rng, 2.0 / sizes.size), X)
-            if not len(child):
+            child = seen.new(mutate(X[rng.integers(0, len(X), n_off)], ops, rng, 2.0 / sizes.size))
+        if not len(child):              # a generation without new candidates is a quiet one
+            empty += 1
+            quiet += 1
+            if quiet >= stag and arch.feasible > 0:
+                stopped = f"stagnation ({stag} generations without a new front point)"
+                break
+            if empty >= 50:
                 stopped = "no new candidates (the population covers its neighbourhood)"
                 break
+            continue
+        empty = 0
         Fc, cvc = run(child)
         X, F, cv = np.concatenate([X, child]), np.concatenate([F, Fc]), np.concatenate([cv, cvc])
         rank, crowd = rank_and_crowding(F, cv)
@@ -388,15 +305,17 @@ def evolutionary(evaluate: Evaluator, sizes: np.ndarray, n_obj: int, n_con: int,
         if quiet >= stag and arch.feasible > 0:
             stopped = f"stagnation ({stag} generations without a new front point)"
             break
-    gen_used = used
+    gen_used = used - seed_used
     ls_used = 0
     if local_search and used < budget and arch.feasible > 0:
-        ls_used, why = _local_search(evaluate, sizes, arch, budget - used, rng, mirror_map(space))
+        ls_used, why = pareto_local_search(evaluate, sizes, arch, budget - used, rng, seen, mirror_map(space))
+        used += ls_used
         stopped = f"{stopped}; then {why}"
         if progress is not None:
-            progress.update(min(used + ls_used, budget), budget)
-    info = {"generations": gens, "generation_evaluations": gen_used, "local_search_evaluations": ls_used,
-            "scan_evaluations": scanned, "scan_feasible": int(len(seeds)), "stagnation_generations": stag}
-    # evaluated counts every candidate the run evaluated, the seeding scan included (info splits it)
-    return SearchResult("evolutionary", arch, gen_used + ls_used + scanned, space_size(sizes),
-                        time.perf_counter() - t0, stopped, history, info)
+            progress.update(min(used, budget), budget)
+    info = {"generations": gens, "scan_evaluations": seed_used, "scan_feasible": seed_feasible,
+            "generation_evaluations": gen_used, "local_search_evaluations": ls_used,
+            "stagnation_generations": stag, "seeding": seeder.report()}
+    # evaluated counts every candidate the run evaluated: seeding, generations and local search
+    return SearchResult("evolutionary", arch, used, space_size(sizes), time.perf_counter() - t0, stopped,
+                        history, info)
