@@ -30,7 +30,7 @@ import numpy as np
 
 from strainline.optimizer.search.archive import Archive, SearchResult, hypervolume
 from strainline.optimizer.search.exhaustive import Evaluator, space_size
-from strainline.optimizer.search.localsearch import Seen, flip, mirror_map  # noqa: F401
+from strainline.optimizer.search.localsearch import Seen, Twins, flip, mirror_map  # noqa: F401
 from strainline.optimizer.search.localsearch import local_search as pareto_local_search
 from strainline.optimizer.search.seeding import RandomSeeder, build_seeder
 
@@ -248,7 +248,7 @@ def evolutionary(evaluate: Evaluator, sizes: np.ndarray, n_obj: int, n_con: int,
     if seeder is None:
         seeder = build_seeder(space, problem, sizes) if space is not None else RandomSeeder(sizes)
     arch = Archive(n_obj, sizes.size)
-    seen = Seen(sizes)
+    seen, twins = Seen(sizes), Twins(sizes.size)
     stag = stagnation if stagnation is not None else max(30, budget // pop_size // 3)
     used = 0
 
@@ -257,6 +257,7 @@ def evolutionary(evaluate: Evaluator, sizes: np.ndarray, n_obj: int, n_con: int,
         seen.add(x)
         F, G = evaluate(x)
         arch.add(x, F, G)
+        twins.add(x, F, G)
         used += len(x)
         cv = np.maximum(G, 0.0).sum(axis=1) if G.shape[1] else np.zeros(len(x))
         bad = ~np.all(np.isfinite(F), axis=1) | ~np.isfinite(cv)
@@ -276,8 +277,10 @@ def evolutionary(evaluate: Evaluator, sizes: np.ndarray, n_obj: int, n_con: int,
         p1, p2 = X[par[0]], X[par[1]]
         swap = (rng.random(p1.shape) < 0.5) & (rng.random((n_off, 1)) < 0.9)
         child = seen.new(mutate(np.where(swap, p2, p1), ops, rng, 1.0 / sizes.size))
+        child = child[seeder.screen(child)] if len(child) else child
         if not len(child):
             child = seen.new(mutate(X[rng.integers(0, len(X), n_off)], ops, rng, 2.0 / sizes.size))
+            child = child[seeder.screen(child)] if len(child) else child
         if not len(child):              # a generation without new candidates is a quiet one
             empty += 1
             quiet += 1
@@ -308,7 +311,8 @@ def evolutionary(evaluate: Evaluator, sizes: np.ndarray, n_obj: int, n_con: int,
     gen_used = used - seed_used
     ls_used = 0
     if local_search and used < budget and arch.feasible > 0:
-        ls_used, why = pareto_local_search(evaluate, sizes, arch, budget - used, rng, seen, mirror_map(space))
+        ls_used, why = pareto_local_search(evaluate, sizes, arch, budget - used, rng, seen, mirror_map(space),
+                                             twins=twins, screen=seeder.screen)
         used += ls_used
         stopped = f"{stopped}; then {why}"
         if progress is not None:

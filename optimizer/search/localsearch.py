@@ -129,15 +129,58 @@ class Seen:
             self.rows.update(x.tobytes() for x in np.asarray(X, np.int64))
 
 
+def _order(n: int, own: np.ndarray, other: np.ndarray):
+    """(distance, anchors) in the order the local search takes them."""
+    yield from ((0, own), (1, own), (0, other), (1, other))
+    for d in range(2, n):
+        yield from ((d, own), (d, other))
+
+
+class Twins:
+    """Every feasible point evaluated so far, so the local search starts from each design with an
+    archive point's objective vector: the archive keeps one of several designs with equal
+    objectives, and the others may lie next to different front points."""
+
+    def __init__(self, n_var: int, per_front: int = 3) -> None:
+        self.per_front = per_front
+        self.X: list[np.ndarray] = []
+        self.F: list[np.ndarray] = []
+        self.n_var = n_var
+
+    def add(self, X: np.ndarray, F: np.ndarray, G: np.ndarray) -> None:
+        ok = np.all(np.isfinite(F), axis=1) & (np.all(G <= 0, axis=1) if G.shape[1] else True)
+        if ok.any():
+            self.X.append(np.asarray(X, np.int64)[ok])
+            self.F.append(np.asarray(F, float)[ok])
+
+    def anchors(self, arch: Archive) -> np.ndarray:
+        """Feasible points whose objectives equal an archive point's (the archive's own among them)."""
+        if not self.X:
+            return np.empty((0, self.n_var), np.int64)
+        X, F = np.concatenate(self.X), np.concatenate(self.F)
+        self.X, self.F = [X], [F]
+        front = {f.tobytes(): 0 for f in np.ascontiguousarray(arch.F)}
+        on = np.zeros(len(F), bool)
+        for i, f in enumerate(np.ascontiguousarray(F)):       # the first `per_front` of each
+            b = f.tobytes()
+            if b in front and front[b] < self.per_front:
+                front[b] += 1
+                on[i] = True
+        return X[on]
+
+
 def local_search(evaluate: Evaluator, sizes: np.ndarray, arch: Archive, budget: int, rng: np.random.Generator,
-                 seen: Seen, mirror: np.ndarray | None = None, batch: int = 2048) -> tuple[int, str]:
+                 seen: Seen, mirror: np.ndarray | None = None, batch: int = 2048,
+                 twins: Twins | None = None, screen: Any = None) -> tuple[int, str]:
     """Pareto local search on ``arch`` with at most ``budget`` evaluations.
 
     Each step takes the nearest unexplored moves: the one-variable neighbours of archive points
     (and their flipped stacks) not yet explored; when every archive point has had those, the
     two-variable neighbours at distance 1 in the coding (a film and its adhesive, an adhesive and
     its placement), then distance 2, and so on. A point that enters the archive later starts
-    again at one-variable moves. Points already evaluated are skipped (``seen``).
+    again at one-variable moves. Points already evaluated are skipped (``seen``). With ``twins``
+    every evaluated design with an archive point's objectives is a starting point too; with
+    ``screen(X) -> mask`` the rows it rules out are not evaluated (nor counted).
 
     Returns
     -------
@@ -147,9 +190,15 @@ def local_search(evaluate: Evaluator, sizes: np.ndarray, arch: Archive, budget: 
     used = 0
     explored: list[set[bytes]] = [set() for _ in range(len(sizes))]
     while used < budget:
-        anchors = arch.X if mirror is None else np.concatenate([arch.X, flip(arch.X, mirror)])
-        for d in range(len(sizes)):
-            todo = [x for x in anchors if x.tobytes() not in explored[d]]
+        own = arch.X if mirror is None else np.concatenate([arch.X, flip(arch.X, mirror)])
+        other = np.empty((0, len(sizes)), np.int64)
+        if twins is not None:
+            other = twins.anchors(arch)
+            other = other if mirror is None else np.concatenate([other, flip(other, mirror)])
+        # nearest moves first: the archive's points, then their twins, at one variable and at
+        # two neighbouring ones; then every further distance, archive points before twins
+        for d, pts in _order(len(sizes), own, other):
+            todo = [x for x in pts if x.tobytes() not in explored[d]]
             if todo:
                 break
         else:
@@ -158,6 +207,8 @@ def local_search(evaluate: Evaluator, sizes: np.ndarray, arch: Archive, budget: 
         for i in rng.permutation(len(todo)):
             explored[d].add(todo[i].tobytes())
             nb = seen.new(_neighbours(todo[i], sizes, d))
+            if screen is not None and len(nb):
+                nb = nb[screen(nb)]
             parts.append(nb)
             held += len(nb)
             if held >= batch:
@@ -168,5 +219,7 @@ def local_search(evaluate: Evaluator, sizes: np.ndarray, arch: Archive, budget: 
         seen.add(xb)
         F, G = evaluate(xb)
         arch.add(xb, F, G)
+        if twins is not None:
+            twins.add(xb, F, G)
         used += len(xb)
     return used, f"budget (local search at {'one-variable' if d == 0 else f'two-variable, distance {d},'} moves)"

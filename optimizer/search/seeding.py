@@ -74,6 +74,10 @@ class RandomSeeder:
             self.weights[k] = np.maximum(w, FLOOR / int(s))
         self.updates += 1
 
+    def screen(self, X: np.ndarray) -> np.ndarray:
+        """True for every row (a bare evaluator has no tables to screen with)."""
+        return np.ones(len(X), bool)
+
     def report(self) -> dict[str, Any]:
         return {"seeder": "random", "constructed": int(self.drawn), "weight_updates": self.updates}
 
@@ -98,6 +102,7 @@ class TableSeeder(RandomSeeder):
         self.limit_m = None if lim is None else float(lim) * 1e-6
         self.combos, self.line_vars = self._line_combos()
         self.kept = 0
+        self.screened = 0                # rows the screen kept from evaluation
 
     # ------------------------------------------------------------------ line rows
     def line_figures(self, X: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -193,6 +198,19 @@ class TableSeeder(RandomSeeder):
             out = np.concatenate([out, Xs[np.argsort(ts, kind="stable")[: n - len(out)]]])
         return out
 
+    def screen(self, X: np.ndarray) -> np.ndarray:
+        """True where a grid point's line row meets every row-level line constraint and its stack
+        the thickness limit: read from the tables, so the rest need not be evaluated (they
+        are infeasible whatever the bend model says)."""
+        if not len(X):
+            return np.ones(0, bool)
+        _, g = self.line_figures(X)
+        ok = np.all(g <= 0, axis=1)
+        if self.limit_m is not None:
+            ok &= self.thickness(X) <= self.limit_m * (1 + 1e-12)
+        self.screened += int(np.sum(~ok))
+        return ok
+
     def thickness(self, X: np.ndarray) -> np.ndarray:
         """Total stack thickness of grid points, m (sum of the per-option layer thicknesses)."""
         return self.space.mechanics(X)[0].sum(axis=1)
@@ -202,6 +220,7 @@ class TableSeeder(RandomSeeder):
                 "within_thickness": int(self.kept),
                 "line_combinations": 0 if self.combos is None else int(len(self.combos)),
                 "line_variables": [self.space.variables[k].name for k in self.line_vars],
+                "screened_out": int(self.screened),
                 "weight_updates": self.updates}
 
 
