@@ -257,7 +257,7 @@ def evolutionary(evaluate: Evaluator, sizes: np.ndarray, n_obj: int, n_con: int,
         seen.add(x)
         F, G = evaluate(x)
         arch.add(x, F, G)
-        twins.add(x, F, G)
+        twins.add(x, F, G, arch)
         used += len(x)
         cv = np.maximum(G, 0.0).sum(axis=1) if G.shape[1] else np.zeros(len(x))
         bad = ~np.all(np.isfinite(F), axis=1) | ~np.isfinite(cv)

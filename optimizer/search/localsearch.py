@@ -94,6 +94,7 @@ class Seen:
         self.sizes = np.asarray(sizes, np.int64)
         self.small = float(np.prod(self.sizes.astype(float))) < 2.0 ** 62
         self.codes = np.empty(0, np.int64)
+        self.recent: list[np.ndarray] = []
         self.rows: set[bytes] = set()
 
     def _code(self, X: np.ndarray) -> np.ndarray:
@@ -101,6 +102,14 @@ class Seen:
         for k in range(self.sizes.size - 1, -1, -1):
             c = c * self.sizes[k] + X[:, k]
         return c
+
+    def _known(self, c: np.ndarray) -> np.ndarray:
+        out = np.zeros(len(c), bool)
+        for part in (self.codes, *self.recent):
+            if len(part):
+                i = np.minimum(np.searchsorted(part, c), len(part) - 1)
+                out |= part[i] == c
+        return out
 
     def new(self, X: np.ndarray) -> np.ndarray:
         """Rows of X not seen before and not repeated earlier in X (in their order)."""
@@ -112,7 +121,7 @@ class Seen:
             _, first = np.unique(c, return_index=True)
             keep = np.zeros(len(X), bool)
             keep[first] = True
-            keep &= ~np.isin(c, self.codes)
+            keep &= ~self._known(c)
             return X[keep]
         out, held = [], set()
         for x in X:
@@ -123,8 +132,11 @@ class Seen:
         return np.array(out, np.int64).reshape(-1, X.shape[1])
 
     def add(self, X: np.ndarray) -> None:
-        if self.small:
-            self.codes = np.union1d(self.codes, self._code(np.asarray(X, np.int64)))
+        if self.small:      # sorted runs, merged when the recent ones outgrow a quarter of the rest
+            self.recent.append(np.unique(self._code(np.asarray(X, np.int64))))
+            if sum(len(r) for r in self.recent) > max(4096, len(self.codes) // 4):
+                self.codes = np.unique(np.concatenate([self.codes, *self.recent]))
+                self.recent = []
         else:
             self.rows.update(x.tobytes() for x in np.asarray(X, np.int64))
 
@@ -137,8 +149,8 @@ def _order(n: int, own: np.ndarray, other: np.ndarray):
 
 
 class Twins:
-    """Every feasible point evaluated so far, so the local search starts from each design with an
-    archive point's objective vector: the archive keeps one of several designs with equal
+    """The feasible points evaluated so far that no archive point dominated, so the local search
+    starts from each design with an archive point's objective vector: the archive keeps one of several designs with equal
     objectives, and the others may lie next to different front points."""
 
     def __init__(self, n_var: int, per_front: int = 3) -> None:
@@ -147,8 +159,14 @@ class Twins:
         self.F: list[np.ndarray] = []
         self.n_var = n_var
 
-    def add(self, X: np.ndarray, F: np.ndarray, G: np.ndarray) -> None:
+    def add(self, X: np.ndarray, F: np.ndarray, G: np.ndarray, arch: Archive) -> None:
+        """Keep the feasible rows no archive point dominates (after ``arch`` took the batch): a row
+        dominated now can never equal a later archive point, whose points only improve."""
         ok = np.all(np.isfinite(F), axis=1) & (np.all(G <= 0, axis=1) if G.shape[1] else True)
+        rows = np.flatnonzero(ok)
+        if len(rows) and len(arch.F):
+            A, Fr = arch.F[None, :, :], np.asarray(F, float)[rows][:, None, :]
+            ok[rows] = ~np.any(np.all(A <= Fr, axis=2) & np.any(A < Fr, axis=2), axis=1)
         if ok.any():
             self.X.append(np.asarray(X, np.int64)[ok])
             self.F.append(np.asarray(F, float)[ok])
@@ -220,6 +238,6 @@ def local_search(evaluate: Evaluator, sizes: np.ndarray, arch: Archive, budget: 
         F, G = evaluate(xb)
         arch.add(xb, F, G)
         if twins is not None:
-            twins.add(xb, F, G)
+            twins.add(xb, F, G, arch)
         used += len(xb)
     return used, f"budget (local search at {'one-variable' if d == 0 else f'two-variable, distance {d},'} moves)"
