@@ -12,10 +12,26 @@ skipped when a lower bound proves that none of its candidates can be feasible:
   (to 1e-12), i.e. the column is measured additive across the split (a split inside a group of
   coupled variables, e.g. an adhesive and its placement, fails and the next split is tried).
 
-The surviving blocks are enumerated as usual (:mod:`.exhaustive`, :mod:`.parallel`); skipped
-blocks hold no feasible point, so the front is exactly that of the plain enumeration.
+* **Branch and bound over the tree** (:func:`node_ranges`, study problems): from the root (every
+  variable free) down to blocks of at least :data:`MIN_BLOCK`, each node gets rigorous lower
+  bounds over all its completions (:class:`.boundstrain.NodeModel`) and is skipped, with all its
+  subtree, when one proves that no candidate of it is feasible -- ``thickness`` (total thickness
+  limit), ``line`` (no reachable line-table row meets the line constraints or the loss limit),
+  ``strain`` (peak or signal copper strain, or the fatigue range, over its limit) -- or that none
+  can enter the front -- ``dominance``: a known feasible point ``p`` (true evaluations, e.g. an
+  evolutionary pre-run) with ``p <= lb`` in every quantized objective and either ``p < lb`` in
+  one or an index below the node's first (the archive keeps, of equal objective vectors, the
+  smallest index; :mod:`.archive`). A front point of the plain enumeration is never in a skipped
+  node, so the front of the surviving blocks is exactly the plain front (same points, same
+  indices); the feasible count then covers the enumerated blocks only.
+
+The surviving blocks are enumerated as usual (:mod:`.exhaustive`, :mod:`.parallel`); blocks skipped
+by the limits hold no feasible point, so the front is exactly that of the plain enumeration.
 """
 from __future__ import annotations
+
+import time
+from typing import Any
 
 import numpy as np
 
@@ -112,3 +128,143 @@ def surviving_ranges(evaluate: Evaluator, sizes: np.ndarray, col: int, seed: int
     return ranges, {"skipped": n_skip * P, "blocks": int(Q), "blocks_skipped": n_skip, "block_size": int(P),
                     "bound_evaluations": int(Q + (1 + 3) * P),
                     "reason": "total thickness: the thinnest stack of the block is over the limit"}
+
+
+# --------------------------------------------------------------------------------------------
+# branch and bound over the tree (study problems)
+#: The bound kinds, in the order a node's skip is attributed.
+KINDS = ("thickness", "line", "strain", "dominance")
+
+
+class BoundTimeout(Exception):
+    """The bound pass ran past its time cap."""
+
+
+def node_model(evaluate: Any) -> Any:
+    """The :class:`.boundstrain.NodeModel` of a study evaluator (``evaluate.problem``), or None
+    when the evaluator is not a study problem or the model bounds neither mechanics nor lines."""
+    pb = getattr(evaluate, "problem", None)
+    if pb is None or not hasattr(pb, "space"):
+        return None
+    from strainline.optimizer.search.boundstrain import NodeModel
+
+    model = NodeModel(pb)
+    return model if model.mech else None
+
+
+def known_points(evaluate: Evaluator, exact: Evaluator, sizes: np.ndarray, n_obj: int, n_con: int, seed: int,
+                 budget: int, space: Any = None) -> tuple[np.ndarray, np.ndarray, dict]:
+    """Feasible points of a short evolutionary run, re-evaluated with ``exact`` (the enumeration's
+    evaluator): objectives (k, n_obj) and candidate indices (k,), for the dominance bound."""
+    from strainline.optimizer.search.evolutionary import evolutionary
+
+    t0 = time.perf_counter()
+    res = evolutionary(evaluate, sizes, n_obj, n_con, budget, seed, space=space)
+    X = res.archive.X
+    if not len(X):
+        return np.empty((0, n_obj)), np.empty(0, np.int64), {"evaluations": int(res.evaluated), "points": 0}
+    F, G = exact(X)
+    F, G = np.asarray(F, float), np.asarray(G, float)
+    ok = np.all(np.isfinite(F), axis=1) & (np.all(G <= 0, axis=1) if G.shape[1] else True)
+    idx = np.zeros(len(X), np.int64)
+    for k in range(sizes.size - 1, -1, -1):          # mixed-radix index, first variable fastest
+        idx = idx * int(sizes[k]) + X[:, k]
+    return F[ok], idx[ok], {"evaluations": int(res.evaluated), "points": int(ok.sum()),
+                            "seconds": round(time.perf_counter() - t0, 3)}
+
+
+def _dominated(Fl: np.ndarray, start: np.ndarray, KF: np.ndarray, Ki: np.ndarray) -> np.ndarray:
+    """Nodes whose objective lower bounds ``Fl`` a known point dominates (strictly, or weakly with
+    a smaller index than the node's first candidate ``start``)."""
+    out = np.zeros(len(Fl), bool)
+    for p, ip in zip(KF, Ki):
+        le = np.all(p <= Fl, axis=1)
+        if le.any():
+            out |= le & (np.any(p < Fl, axis=1) | (ip < start))
+    return out
+
+
+def block_level(sizes: np.ndarray) -> int:
+    """Level of the enumerated blocks: the fewest fast variables giving at least :data:`MIN_BLOCK`."""
+    P = 1
+    for m in range(1, sizes.size + 1):
+        P *= int(sizes[m - 1])
+        if P >= MIN_BLOCK:
+            return m
+    return sizes.size
+
+
+def node_ranges(model: Any, sizes: np.ndarray, known: tuple[np.ndarray, np.ndarray] | None = None,
+                m_final: int | None = None, time_cap: float | None = None) -> tuple[list[tuple[int, int]], dict]:
+    """Branch and bound from the root to blocks of level ``m_final``: the index ranges left, and
+    ``info`` with the skipped candidates per kind (``skipped_by``), ``skipped``, ``blocks``,
+    ``blocks_skipped``, ``block_size``, ``nodes_bounded``. Raises :class:`BoundTimeout` past
+    ``time_cap`` seconds."""
+    pb = model.pb
+    sizes = np.asarray(sizes, np.int64)
+    n_var = sizes.size
+    m_final = block_level(sizes) if m_final is None else m_final
+    lim = pb.space.study.limits
+    cons = pb.constraint_names
+    KF, Ki = known if known is not None and len(known[0]) else (None, None)
+    P = [space_size(sizes[:m]) for m in range(n_var + 1)]
+    skipped = dict.fromkeys(KINDS, 0)
+    kept: list[np.ndarray] = []
+    stats = {"nodes": 0}
+    t0 = time.perf_counter()
+
+    def reasons(m: int, q: np.ndarray) -> np.ndarray:
+        b = model.bounds(m, q)
+        why = np.zeros(q.size, np.int8)
+        tests = []
+        if "total_thickness" in cons:
+            tests.append((1, b["thickness_m"] / (lim.total_thickness_um * 1e-6) - 1.0 > SLACK))
+        tests.append((2, ~b["line"]))
+        s = np.zeros(q.size, bool)
+        if "peak_strain" in cons:
+            s |= b["peak"].max(axis=1) * 100.0 / lim.peak_strain_pct - 1.0 > SLACK
+        if "signal_strain" in cons:
+            s |= b["signal"].max(axis=1) * 100.0 / lim.signal_strain_pct - 1.0 > SLACK
+        if "fatigue_life" in cons:
+            s |= b["fatigue"] - 1.0 > SLACK
+        tests.append((3, s))
+        for code, hit in tests:
+            why[(why == 0) & hit] = code
+        if KF is not None:
+            rest = why == 0
+            if rest.any():
+                Fl = model.objective_bounds({k: v[rest] for k, v in b.items()})
+                d = _dominated(Fl, q[rest] * P[m], KF, Ki)
+                why[np.flatnonzero(rest)[d]] = 4
+        return why
+
+    def walk(m: int, q: np.ndarray) -> None:
+        for a in range(0, q.size, BATCH):
+            if time_cap is not None and time.perf_counter() - t0 > time_cap:
+                raise BoundTimeout
+            c = q[a:a + BATCH]
+            why = reasons(m, c)
+            stats["nodes"] += c.size
+            for code, kind in enumerate(KINDS, 1):
+                skipped[kind] += int(np.count_nonzero(why == code)) * P[m]
+            keep = c[why == 0]
+            if m == m_final:
+                kept.append(keep)
+            elif keep.size:
+                s = int(sizes[m - 1])
+                walk(m - 1, (keep[:, None] * s + np.arange(s)).ravel())
+
+    walk(n_var, np.zeros(1, np.int64))
+    keep = np.concatenate(kept) if kept else np.empty(0, np.int64)
+    Pf = P[m_final]
+    # runs of consecutive kept blocks -> index ranges
+    brk = np.flatnonzero(np.diff(keep) != 1) if keep.size else np.empty(0, np.int64)
+    starts = np.concatenate([keep[:1], keep[brk + 1]]) if keep.size else keep
+    stops = np.concatenate([keep[brk], keep[-1:]]) + 1 if keep.size else keep
+    ranges = [(int(s) * Pf, int(e) * Pf) for s, e in zip(starts, stops)]
+    total = P[n_var]
+    skip = sum(skipped.values())
+    return ranges, {"skipped": int(skip), "skipped_by": skipped, "blocks": int(total // Pf),
+                    "blocks_skipped": int(total // Pf - keep.size), "block_size": int(Pf),
+                    "nodes_bounded": int(stats["nodes"]), "bound_seconds": round(time.perf_counter() - t0, 3),
+                    "reason": "branch and bound: thickness, line, strain and dominance lower bounds per node"}

@@ -39,6 +39,8 @@ REFUSE_S = 86400.0
 PROBE_S = 0.3
 #: Spaces from this size on try the block bounds first (:mod:`.bounds`).
 BOUND_MIN = 20_000_000
+#: Evaluations of the evolutionary pre-run whose feasible points feed the dominance bound.
+PRE_BUDGET = 2000
 #: Below this projected time (s) the enumeration stays in this process (no pool to start).
 POOL_MIN_S = 1.5
 
@@ -78,7 +80,7 @@ def _probe(evaluate: Evaluator, sizes: np.ndarray, n_obj: int, ranges: list[tupl
         if progress is not None:
             progress.update(done, total)
     dt = max(time.perf_counter() - t0, 1e-9)
-    return arch, left, done, done / dt
+    return arch, left, done, max(done / dt, 1.0)       # every block skipped: nothing left to rate
 
 
 def exhaustive(evaluate: Evaluator, sizes: np.ndarray, n_obj: int, chunk: int = CHUNK, progress: Any = None,
@@ -123,6 +125,22 @@ def exhaustive(evaluate: Evaluator, sizes: np.ndarray, n_obj: int, chunk: int = 
     return SearchResult("exhaustive", arch, todo, total, dt, "complete", info=info)
 
 
+def _tree_bounds(bnd: Any, model: Any, evaluate: Evaluator, ev_ex: Evaluator, sizes: np.ndarray, n_obj: int,
+                 n_con: int, seed: int, space: Any, cap: float | None) -> tuple[list | None, dict]:
+    """Branch and bound over the tree (:func:`.bounds.node_ranges`) with the feasible points of a
+    short evolutionary pre-run (:data:`PRE_BUDGET` evaluations) for the dominance bound. ``cap``
+    (``auto``): CPU seconds the bound pass may take; past it the ranges are None (too large)."""
+    t0 = time.perf_counter()
+    KF, Ki, kinfo = bnd.known_points(evaluate, ev_ex, sizes, n_obj, n_con, seed, PRE_BUDGET, space)
+    try:
+        ranges, info = bnd.node_ranges(model, sizes, (KF, Ki), time_cap=cap)
+    except bnd.BoundTimeout:
+        return None, {"known_points": kinfo, "projected_s": round(time.perf_counter() - t0, 1),
+                      "reason": "the bound pass alone ran past the time limit"}
+    info["known_points"] = kinfo
+    return ranges, info
+
+
 def choose_method(method: str, space_size: int, rate_per_s: float = 1e6, workers: int = 1,
                   time_limit_s: float = AUTO_TIME_LIMIT_S) -> str:
     """``auto`` -> ``exhaustive`` when ``space_size / (rate_per_s * workers)`` fits ``time_limit_s``."""
@@ -165,7 +183,12 @@ def search(evaluate: Evaluator, sizes: np.ndarray, n_obj: int, n_con: int, metho
     ``bound = (evaluate, column)`` names an additive limit column (the total thickness) of an
     evaluator that computes it for every row: spaces of at least :data:`BOUND_MIN` candidates
     then skip the blocks whose thinnest stack is over the limit (:mod:`.bounds`; the front is
-    unchanged). ``rate_per_s`` in ``info`` counts the whole space over the wall time.
+    unchanged). When that evaluator is a study problem's (``evaluate.problem``, bonded region) the
+    branch and bound of :func:`.bounds.node_ranges` runs instead: a :data:`PRE_BUDGET`-evaluation
+    evolutionary pre-run gives known feasible points, and nodes of the index tree are skipped by
+    their thickness, line, strain and dominance lower bounds (``info["bounds"]["skipped_by"]``;
+    the front is exactly that of the plain enumeration; under ``auto`` the pass may take half the
+    time limit). ``rate_per_s`` in ``info`` counts the whole space over the wall time.
     """
     from strainline.optimizer.errors import StudyError
 
@@ -183,9 +206,15 @@ def search(evaluate: Evaluator, sizes: np.ndarray, n_obj: int, n_con: int, metho
         if dask_address:
             from strainline.optimizer.search.parallel import cluster_threads
             par = cluster_threads(dask_address)
+        model = None
         if bound is not None and size >= BOUND_MIN:
             from strainline.optimizer.search import bounds as bnd
 
+            model = bnd.node_model(bound[0])
+        if model is not None:
+            ranges, binfo = _tree_bounds(bnd, model, evaluate, ev_ex, sizes, n_obj, n_con, seed, space,
+                                         0.5 * time_limit_s if method == "auto" else None)
+        elif bound is not None and size >= BOUND_MIN:
             rng = np.random.default_rng(seed)
             t1 = time.perf_counter()
             split = bnd.find_split(bound[0], sizes, bound[1], rng)
@@ -202,7 +231,8 @@ def search(evaluate: Evaluator, sizes: np.ndarray, n_obj: int, n_con: int, metho
         if ranges is None:
             if notify is not None:
                 notify(f"auto: an exhaustive run of {size:,} candidates is projected at {_fmt_s(binfo['projected_s'])}"
-                       f" even with the thickness bound (limit {_fmt_s(time_limit_s)}); running the evolutionary search")
+                       f" even with the {'block bounds' if 'known_points' in binfo else 'thickness bound'}"
+                       f" (limit {_fmt_s(time_limit_s)}); running the evolutionary search")
             res = evolutionary(evaluate, sizes, n_obj, n_con, budget, seed, pop_size=pop_size, progress=progress,
                                space=space)
             res.info.update(bounds=binfo, time_limit_s=time_limit_s,
@@ -230,7 +260,8 @@ def search(evaluate: Evaluator, sizes: np.ndarray, n_obj: int, n_con: int, metho
             res = exhaustive(ev_ex, sizes, n_obj, progress=progress, workers=use, dask_address=dask_address,
                              archive=arch, ranges=left)
             res.seconds = time.perf_counter() - t0
-            res.evaluated = todo + int(binfo.get("bound_evaluations", 0))
+            res.evaluated = todo + int(binfo.get("bound_evaluations", 0)) + \
+                int(binfo.get("known_points", {}).get("evaluations", 0))
             res.info.update(info, rate_per_s=round(size / max(res.seconds, 1e-9)))
             return res
         if notify is not None:
