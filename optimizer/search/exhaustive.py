@@ -72,6 +72,14 @@ class _ChunkDigits:
         return out
 
 
+def _fused(evaluate: Evaluator, sizes: np.ndarray, n_obj: int, pieces: list[tuple[int, int]], progress: Any,
+           archive: Archive | None) -> Archive | None:
+    """The evaluator's own enumeration of ``pieces`` (``evaluate.range_archive``: the fused compiled
+    kernel of a study problem, :mod:`.fusedplan`), or None when it has none or does not cover it."""
+    run = getattr(evaluate, "range_archive", None)
+    return None if run is None else run(sizes, n_obj, pieces, progress, archive)
+
+
 def exhaustive_range(evaluate: Evaluator, sizes: np.ndarray, n_obj: int, start: int, stop: int,
                      chunk: int = CHUNK, progress: Any = None, archive: Archive | None = None) -> Archive:
     """Evaluate the candidates ``start <= index < stop`` in chunks; return their exact archive.
@@ -95,6 +103,9 @@ def exhaustive_range(evaluate: Evaluator, sizes: np.ndarray, n_obj: int, start: 
         Continue this archive (it must hold only indices below ``start``).
     """
     sizes = np.asarray(sizes, np.int64)
+    got = _fused(evaluate, sizes, n_obj, [(start, stop)], progress, archive)
+    if got is not None:
+        return got
     arch = archive if archive is not None else Archive(n_obj, sizes.size)
     digits = _ChunkDigits(sizes, chunk)
     step = digits.chunk
@@ -128,6 +139,9 @@ def exhaustive_pieces(evaluate: Evaluator, sizes: np.ndarray, n_obj: int, pieces
     bound leaves) are gathered into batches of about ``chunk`` candidates, so each evaluation call
     stays large."""
     sizes = np.asarray(sizes, np.int64)
+    got = _fused(evaluate, sizes, n_obj, pieces, progress, archive)
+    if got is not None:
+        return got
     arch = archive if archive is not None else Archive(n_obj, sizes.size)
     buf: list[np.ndarray] = []
     held = 0

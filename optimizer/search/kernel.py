@@ -46,15 +46,20 @@ def enabled() -> bool:
 
 
 def _rows_bonded(lo, hi, cu, film, adh, place, ct_, cb_, cov,
-                 cu_t, cu_E, fill, gT, gS, gM, gyb, gyt, ginv,
-                 n_adh, n_cov, stiff, radius, inside_bottom, total_out, peak_out, ratio_out):
+                 cu_t, cu_E, fill, gT, gS, gM, gyb, gyt, ginv, ginvmax,
+                 n_adh, n_cov, stiff, radius, inside_bottom, ratio_cut, total_out, peak_out, ratio_out):
     """Bonded candidates ``lo:hi`` from per-option group sums (:func:`.faststrain.fast_tables`), the
     same arithmetic as :func:`.faststrain.copper_strains`:
     a cover or gap contributes its thickness ``T``, stiffness ``S = sum E t`` and first moment
     ``M`` about its own bottom face; rows of ``gT``... are the bottom covers (``n_cov``), the top
     covers (``n_cov``), then the gap codes; ``gyb``, ``gyt``, ``ginv`` (rows, 3) give every column's
     bottom and top height in its group and its inverse elongation (0 for an empty column, and for
-    the third column of a two-column cover)."""
+    the third column of a two-column cover), ``ginvmax`` (rows,) the largest of a group's.
+
+    With ``ratio_cut`` >= 0 a candidate whose dielectric strain bound -- the largest distance of a
+    face from the axis times the curvature times the largest inverse elongation of its groups --
+    is at most ``ratio_cut`` gets that bound as its ratio instead of the exact value (the fused
+    enumeration only needs to know the ratio is under its limit); -1 always gives the exact one."""
     N = cu.shape[0]
     ybot = np.zeros(N)
     tcu = np.zeros(N)
@@ -109,6 +114,16 @@ def _rows_bonded(lo, hi, cu, film, adh, place, ct_, cb_, cov,
             p = abs(p)
             q = abs(q)
             peak_out[i, r] = (p if p > q else q) * absk
+        if ratio_cut >= 0.0:
+            im = 0.0
+            for g in range(N + 1):
+                v = ginvmax[code[g]]
+                im = v if v > im else im
+            span = abs(na) if abs(na) > abs(y - na) else abs(y - na)
+            bound = span * absk * im
+            if bound <= ratio_cut:
+                ratio_out[r] = bound
+                continue
         worst = 0.0
         for g in range(N + 1):
             e = base[g] - na
@@ -332,7 +347,7 @@ def _tables(problem: Any) -> dict:
     cols = [f64(np.concatenate([np.pad(p[j], ((0, 0), (0, 3 - p[j].shape[1]))) for p in parts])) for j in range(3)]
     group = [f64(np.concatenate([ft[p + "_" + k] for p in ("cb", "ct", "gap", "gapU", "gapD")])) for k in "TSM"]
     tabs = {
-        "bonded": (f64(b["cu_t"]), f64(b["cu_E"]), f64(b["fill"]), *group, *cols),
+        "bonded": (f64(b["cu_t"]), f64(b["cu_E"]), f64(b["fill"]), *group, *cols, f64(cols[2].max(axis=1))),
         "groups": (f64(b["cu_t"]), f64(b["cu_E"]), f64(b["fill"]), *group, *cols,
                    f64(ft["gap_tup"]), f64(ft["gap_tdn"]), mask),
         "stiff": bool(ft["stiff"]),
@@ -396,7 +411,7 @@ def zone_mechanics(problem: Any, slots: dict[str, np.ndarray], zone: Any = None,
             total, peak, ratio)
     else:
         run = _parallel_bonded if parallel else _serial_bonded
-        run(cu, film, adh, place, ct, cb, cov, *tabs["bonded"], n_adh, n_cov, tabs["stiff"], radius, bottom,
+        run(cu, film, adh, place, ct, cb, cov, *tabs["bonded"], n_adh, n_cov, tabs["stiff"], radius, bottom, -1.0,
             total, peak, ratio)
     return total, peak.T, ratio
 

@@ -42,13 +42,24 @@ class ProblemEvaluator:
     """A picklable ``evaluate(x) -> (F, G)`` of a study problem (``prune``: skip the bend model
     for candidates whose line already fails, :meth:`Problem.evaluate`)."""
 
-    def __init__(self, problem: Any, prune: bool = True) -> None:
+    def __init__(self, problem: Any, prune: bool = True, fused: bool = True) -> None:
         self.problem = problem
         self.prune = prune
+        self.fused = fused
 
     def __call__(self, x: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         e = self.problem.evaluate(x, prune=self.prune)
         return e.F, e.G
+
+    def range_archive(self, sizes: np.ndarray, n_obj: int, pieces: list[tuple[int, int]], progress: Any = None,
+                      archive: Any = None) -> Any:
+        """Enumerate index ``pieces`` with the fused compiled kernel (:func:`.fusedplan.range_archive`;
+        the same archive as the chunked evaluation), or None when the kernel does not cover the study
+        (or ``fused`` is off: then the enumeration evaluates chunks)."""
+        if not (self.prune and self.fused):
+            return None
+        from strainline.optimizer.search.fusedplan import range_archive
+        return range_archive(self.problem, self, sizes, n_obj, pieces, progress, archive)
 
     def exact(self, x: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         """``(F, G)`` without pruning: the enumeration refines pruned rows that could be among the
