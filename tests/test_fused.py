@@ -154,6 +154,14 @@ def test_study_the_kernel_does_not_cover_falls_back(monkeypatch):
     monkeypatch.setenv("STRAINLINE_KERNEL", "0")
     pb = _problem(_study({}))
     assert fusedplan.fused_plan(pb) is None
-    assert ProblemEvaluator(pb).range_archive(pb.space.sizes, pb.n_obj, [(0, 10)]) is None
+    assert ProblemEvaluator(pb, fused=True).range_archive(pb.space.sizes, pb.n_obj, [(0, 10)]) is None
     arch = exhaustive_pieces(ProblemEvaluator(pb), pb.space.sizes, pb.n_obj, [(0, 5000)])
     assert arch.seen == 5000 and space_size(pb.space.sizes) == pb.space.size
+
+
+def test_default_evaluator_uses_the_kernel_only_for_large_enumerations(monkeypatch):
+    pb = _problem(_study({}))
+    ev = ProblemEvaluator(pb)
+    assert ev.range_archive(pb.space.sizes, pb.n_obj, [(0, 1000)]) is None
+    monkeypatch.setattr(fusedplan, "MIN_CANDIDATES", 1000)
+    assert ev.range_archive(pb.space.sizes, pb.n_obj, [(0, 1000)]).seen == 1000

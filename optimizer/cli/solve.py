@@ -148,11 +148,11 @@ def solve(study_path: str | Path, out: str | Path | None = None, method: str | N
         time_limit_s = study.search.time_limit_s          # the study's, else the search default
     progress = phases.start("search")
 
-    def evaluate(x):
-        e = problem.evaluate(x)
-        return e.F, e.G
-
     from strainline.optimizer.search.parallel import ProblemEvaluator
+
+    # the full evaluation (F, G) for the evolutionary search; it carries the problem, so the search
+    # seeds and screens from the line table and the per-option thicknesses (:mod:`.seeding`)
+    evaluate = ProblemEvaluator(problem, prune=False)
 
     from strainline.optimizer.search.fieldrefine import search_on_direct_rows, table_summary
 

@@ -125,13 +125,38 @@ def exhaustive(evaluate: Evaluator, sizes: np.ndarray, n_obj: int, chunk: int = 
     return SearchResult("exhaustive", arch, todo, total, dt, "complete", info=info)
 
 
+def _rate(evaluate: Evaluator, sizes: np.ndarray, n_obj: int, size: int, seed: int) -> float:
+    """Candidates per second of ``evaluate``'s enumeration, timed on a random index range (about
+    :data:`PROBE_S` / 3 s; the result is discarded)."""
+    start = int(np.random.default_rng(seed).integers(0, max(size - 2 * CHUNK, 1)))
+    n, done, t0 = CHUNK, 0, time.perf_counter()
+    while time.perf_counter() - t0 < PROBE_S / 3 and start + done + n <= size:
+        exhaustive_pieces(evaluate, sizes, n_obj, [(start + done, start + done + n)])
+        done += n
+        n *= 2
+    return max(done, 1) / max(time.perf_counter() - t0, 1e-9)
+
+
 def _tree_bounds(bnd: Any, model: Any, evaluate: Evaluator, ev_ex: Evaluator, sizes: np.ndarray, n_obj: int,
-                 n_con: int, seed: int, space: Any, cap: float | None) -> tuple[list | None, dict]:
+                 n_con: int, seed: int, space: Any, cap: float | None,
+                 par: int = 1) -> tuple[list | None, dict]:
     """Branch and bound over the tree (:func:`.bounds.node_ranges`) with the feasible points of a
     short evolutionary pre-run (:data:`PRE_BUDGET` evaluations) for the dominance bound. ``cap``
-    (``auto``): CPU seconds the bound pass may take; past it the ranges are None (too large)."""
+    (``auto``: the time limit): the blocks left are first estimated from random blocks
+    (:func:`.bounds.leaf_share`) at the enumeration's measured rate over ``par`` workers, and a
+    projection past ``cap`` gives None ranges at once; the pass itself may take half of ``cap``."""
     t0 = time.perf_counter()
     KF, Ki, kinfo = bnd.known_points(evaluate, ev_ex, sizes, n_obj, n_con, seed, PRE_BUDGET, space)
+    if cap is not None:
+        size = space_size(sizes)
+        share = bnd.leaf_share(model, sizes, (KF, Ki), seed=seed)
+        guess = size * share / _rate(ev_ex, sizes, n_obj, size, seed) / max(par, 1)
+        if guess > cap:
+            return None, {"known_points": kinfo, "estimated_kept_share": round(share, 6),
+                          "projected_s": round(guess, 1),
+                          "reason": "the blocks no bound skips (estimated from 4,096 random blocks) would take past "
+                                    "the time limit to enumerate"}
+        cap = 0.5 * cap
     try:
         ranges, info = bnd.node_ranges(model, sizes, (KF, Ki), time_cap=cap)
     except bnd.BoundTimeout:
@@ -212,8 +237,9 @@ def search(evaluate: Evaluator, sizes: np.ndarray, n_obj: int, n_con: int, metho
 
             model = bnd.node_model(bound[0])
         if model is not None:
+            ev_ex = ev_ex.sized(size) if hasattr(ev_ex, "sized") else ev_ex
             ranges, binfo = _tree_bounds(bnd, model, evaluate, ev_ex, sizes, n_obj, n_con, seed, space,
-                                         0.5 * time_limit_s if method == "auto" else None)
+                                         time_limit_s if method == "auto" else None, par)
         elif bound is not None and size >= BOUND_MIN:
             rng = np.random.default_rng(seed)
             t1 = time.perf_counter()
@@ -239,6 +265,9 @@ def search(evaluate: Evaluator, sizes: np.ndarray, n_obj: int, n_con: int, metho
                             auto="evolutionary: projected exhaustive time over the limit")
             return res
         todo = sum(b - a for a, b in ranges)
+        # the enumeration's evaluator for this many candidates (the fused kernel for large ones,
+        # compiled before the probe times it)
+        ev_ex = ev_ex.sized(todo) if hasattr(ev_ex, "sized") else ev_ex
         arch, left, done, rate = _probe(ev_ex, sizes, n_obj, ranges, CHUNK, progress, size)
         remaining = (todo - done) / rate
         projected = remaining / par

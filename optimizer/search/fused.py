@@ -14,9 +14,11 @@ candidate is written back except the few candidates Python must see:
   exactly the general path's;
 * every candidate with a column within ``EPS`` of its limit (its violation count is decided in
   Python);
-* every infeasible candidate that may be among the ``k`` nearest (its total violation at most the
-  ``k``-th smallest seen so far, kept here; a candidate whose line fails is bent only when its line
-  violation alone passes that test, as the pruning evaluation and the archive's refinement do).
+* every infeasible candidate that may be among the ``k`` nearest: its total violation below the
+  ``k``-th smallest seen so far (kept here; the values are the general path's to the last bit, and
+  of equal violations the archive keeps the lower index, which came first). A candidate whose line
+  fails is bent only when its line violation alone passes that test, as the pruning evaluation and
+  the archive's refinement do.
 
 All other candidates are counted here per violated column, with the pruning rule of
 :meth:`Problem.evaluate`: a candidate whose line fails (the table's ``line_ok``) has only its line
@@ -40,7 +42,7 @@ except ImportError:                    # pragma: no cover - numba is a dependenc
 def _range(starts, stops, pos, sizes, svar, sconst, slut, lut, vdep, vptr, vline, sigvar, lsigtab, lgapvar, covmode,
            covsel, lcovtab, cov_tab, scov, rdim, rpos, rlut, rstride, roff, rnd, place_lut, rowbase,
            line_ok, RT, lcols, ramb, rcv, HW, hfill, strip, kind, unbonded, tabs, n_adh, n_cov, stiff,
-           zrad, zbot, zinv, zhas, zcover, zdyn, thick_den, peak_lim, sig_lim, ef, rmin, cov_bare, cov_glass,
+           zrad, zbot, zfac, zallow, zhas, zcover, zdyn, thick_den, peak_lim, sig_lim, ef, rmin, cov_bare, cov_glass,
            gap_glass, glass_ratio, adh_m, adh_t, topk, emit, counts, hist, state, limit):
     """Enumerate ``[starts[p], stops[p])`` from ``pos = (piece, index)``; see the module docstring.
     Returns the number of candidates processed; ``state`` gets the next ``(piece, index)`` and the
@@ -59,7 +61,7 @@ def _range(starts, stops, pos, sizes, svar, sconst, slut, lut, vdep, vptr, vline
     lsig = np.zeros(K, np.int64)
     lgap = np.zeros(K, np.int64)
     rows = np.zeros(K, np.int64)
-    cv1 = np.zeros(N)
+    o = 0
     sl = np.zeros((max(N + 3 * G, 1), B), np.int64)
     bct = np.zeros(B, np.int64)
     bcb = np.zeros(B, np.int64)
@@ -110,12 +112,6 @@ def _range(starts, stops, pos, sizes, svar, sconst, slut, lut, vdep, vptr, vline
                 for k in range(K):
                     lsig[k] = lsigtab[o, k]
                     lgap[k] = x[lgapvar[k]] if lgapvar[k] >= 0 else 0
-                for i in range(N):
-                    if covmode == 1:
-                        cv1[i] = lcovtab[o, i]
-                    else:
-                        v = covsel[lsig[0], i]
-                        cv1[i] = scov if v == -2 else cov_tab[x[v] if v >= 0 else 0]
             ok = True
             for k in range(K):                     # each line's table row (LineTable.index)
                 d = rdim[k, lsig[k]]
@@ -151,15 +147,19 @@ def _range(starts, stops, pos, sizes, svar, sconst, slut, lut, vdep, vptr, vline
                             amb = True
                         if w > 0.0:
                             cvlb += w
-            full = ok or (not amb and nk > 0 and cvlb <= topk[nk - 1] * (1.0 + EPS) + 1e-12)
+            full = ok or (not amb and nk > 0 and cvlb < topk[nk - 1])
             if full:                               # queue for the bend model
                 for p in range(NS - 3):
                     sl[p, nb] = s[p]
                 bct[nb] = s[NS - 3]
                 bcb[nb] = s[NS - 2]
                 blv[nb] = s[NS - 1]
-                for i in range(N):
-                    bcov[i, nb] = cv1[i]
+                for i in range(N):                 # copper coverages (Space.slots)
+                    if covmode == 1:
+                        bcov[i, nb] = lcovtab[o, i]
+                    else:
+                        v = covsel[lsig[0], i]
+                        bcov[i, nb] = scov if v == -2 else cov_tab[x[v] if v >= 0 else 0]
                 for k in range(K):
                     bsig[k, nb] = lsig[k]
                     brow[k, nb] = rows[k]
@@ -182,7 +182,7 @@ def _range(starts, stops, pos, sizes, svar, sconst, slut, lut, vdep, vptr, vline
                         counts[c] += 1
             if nb == B:
                 _block(nb, sl, bct, bcb, bcov, blv, bsig, brow, K, N, C, kind, HW, hfill, strip, unbonded,
-                       tabs, n_adh, n_cov, stiff, zrad, zbot, zinv, zhas, zcover, zdyn, thick_den,
+                       tabs, n_adh, n_cov, stiff, zrad, zbot, zfac, zallow, zhas, zcover, zdyn, thick_den,
                        peak_lim, sig_lim, ef, rmin, cov_bare, cov_glass, gap_glass, glass_ratio, adh_m, adh_t,
                        g, total, peak, ratio, acc)
                 n_emit = _decide(nb, g, C, kind, bok, bcv, bidx, topk, emit, n_emit, counts)
@@ -204,7 +204,7 @@ def _range(starts, stops, pos, sizes, svar, sconst, slut, lut, vdep, vptr, vline
             idx = starts[piece]
     if nb:
         _block(nb, sl, bct, bcb, bcov, blv, bsig, brow, K, N, C, kind, HW, hfill, strip, unbonded,
-               tabs, n_adh, n_cov, stiff, zrad, zbot, zinv, zhas, zcover, zdyn, thick_den,
+               tabs, n_adh, n_cov, stiff, zrad, zbot, zfac, zallow, zhas, zcover, zdyn, thick_den,
                peak_lim, sig_lim, ef, rmin, cov_bare, cov_glass, gap_glass, glass_ratio, adh_m, adh_t,
                g, total, peak, ratio, acc)
         n_emit = _decide(nb, g, C, kind, bok, bcv, bidx, topk, emit, n_emit, counts)

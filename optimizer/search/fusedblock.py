@@ -19,8 +19,8 @@ if njit is not None:
     from strainline.optimizer.search.kernel import _bonded_jit, _groups_jit
 
 LINE, ROW, THICK, PEAK, SIG, FAT, MAT, CRAD, COVER, GLASS, LEAVES, HATCH = range(12)
-#: A column within this of 0 is decided in Python: the kernel's arithmetic may differ from the
-#: general path's in the last bit (inverses instead of divisions), never by this much.
+#: A column within this of 0 is decided in Python (a guard: the kernel's arithmetic is the general
+#: path's, so feasibility and the violation counts would agree without it).
 EPS = 1e-9
 
 
@@ -44,14 +44,15 @@ def _decide(nb, g, C, kind, bok, bcv, bidx, topk, emit, n_emit, counts):
                 cv += t
         if ok and mx <= EPS:
             send = True
-        if not send and nk > 0 and cv <= topk[nk - 1] * (1.0 + EPS) + 1e-12:
+        if not send and nk > 0 and cv < topk[nk - 1]:
+            # one of the k smallest violations seen (the values are exact; of equal violations the
+            # archive keeps the lower index, and every kept one came earlier)
             send = True
-            if cv < topk[nk - 1]:                # keep the k smallest violations seen
-                i = nk - 1
-                while i > 0 and topk[i - 1] > cv:
-                    topk[i] = topk[i - 1]
-                    i -= 1
-                topk[i] = cv
+            i = nk - 1
+            while i > 0 and topk[i - 1] > cv:
+                topk[i] = topk[i - 1]
+                i -= 1
+            topk[i] = cv
         if send:
             emit[n_emit] = bidx[j]
             n_emit += 1
@@ -63,14 +64,15 @@ def _decide(nb, g, C, kind, bok, bcv, bidx, topk, emit, n_emit, counts):
 
 
 def _block(nb, sl, ct, cb, cov, lv, bsig, brow, K, N, C, kind, HW, hfill, strip, unbonded, tabs,
-           n_adh, n_cov, stiff, zrad, zbot, zinv, zhas, zcover, zdyn, thick_den, peak_lim, sig_lim, ef, rmin,
+           n_adh, n_cov, stiff, zrad, zbot, zfac, zallow, zhas, zcover, zdyn, thick_den, peak_lim, sig_lim, ef, rmin,
            cov_bare, cov_glass, gap_glass, glass_ratio, adh_m, adh_t, g, total, peak, ratio, acc):
     """The bend-model columns of the ``nb`` queued candidates (slot codes ``sl``, one column each),
     zone by zone with the batch kernels of :mod:`.kernel`, into ``g`` (C, B), column by column.
 
-    Divisions by a limit are multiplications by its inverse here (a last-bit difference from the
-    general path; every decision near a limit is left to Python by :data:`EPS`). ``zinv`` (Z, copper
-    options) is each zone's strain-range factor over the strain range its life limit allows."""
+    Every column is the general path's arithmetic, operation for operation, so the values are the
+    same to the last bit (:func:`_decide` compares total violations exactly). ``zfac`` (Z,) is each
+    zone's strain-range factor, ``zallow`` (Z, copper options) the strain range its life limit
+    allows."""
     Z = zrad.shape[0]
     G = N - 1
     cu_t, cu_E, fill, gT, gS, gM, gyb, gyt, ginv, gtup, gtdn, leaf_mask, ginvmax = tabs
@@ -108,30 +110,27 @@ def _block(nb, sl, ct, cb, cov, lv, bsig, brow, K, N, C, kind, HW, hfill, strip,
             for j in range(nb):
                 m = fat[j]
                 for i in range(N):
-                    t = abs(peak[i, j]) * zinv[z, sl[i, j]]
+                    t = zfac[z] * abs(peak[i, j])
+                    t /= zallow[z, sl[i, j]]
                     m = t if t > m else m
                 fat[j] = m
-    inv_ef = 1.0 / ef
     for c in range(C):
         kc = kind[c]
         if kc == THICK:
-            f = 1.0 / thick_den
             for j in range(nb):
-                g[c, j] = total[j] * f - 1.0
+                g[c, j] = total[j] / thick_den - 1.0
         elif kc == PEAK:
-            f = 100.0 / peak_lim
             for j in range(nb):
-                g[c, j] = zp[j] * f - 1.0
+                g[c, j] = zp[j] * 100.0 / peak_lim - 1.0
         elif kc == SIG:
-            f = 100.0 / sig_lim
             for j in range(nb):
-                g[c, j] = zs[j] * f - 1.0
+                g[c, j] = zs[j] * 100.0 / sig_lim - 1.0
         elif kc == FAT:
             for j in range(nb):
                 g[c, j] = fat[j] - 1.0
         elif kc == MAT:
             for j in range(nb):
-                g[c, j] = mat[j] * inv_ef - 1.0
+                g[c, j] = mat[j] / ef - 1.0
         elif kc == CRAD:
             for j in range(nb):
                 w = -np.inf

@@ -24,6 +24,10 @@ from strainline.optimizer.search.exhaustive import _digits
 #: Candidates per kernel call (the progress step) and most candidates handed back per call.
 STEP = 1 << 20
 CAP = 1 << 15
+#: Fewest candidates a default evaluator enumerates with the kernel: its first compilation on a
+#: new machine takes some 20 s (then it loads from numba's disk cache in about a second), which a
+#: smaller enumeration would not win back.
+MIN_CANDIDATES = 20_000_000
 
 _KIND = {"total_thickness": fz.THICK, "peak_strain": fz.PEAK, "signal_strain": fz.SIG, "fatigue_life": fz.FAT,
          "material_strain": fz.MAT, "cover_radius": fz.CRAD, "cover": fz.COVER, "glass": fz.GLASS,
@@ -226,8 +230,8 @@ def _build(problem: Any) -> dict | None:
         if al is not None and "fatigue_life" in names:
             zallow[z] = al
             zhas[z] = True
-    # strain-range factor (1 flat-to-bent, 2 reversed: fatigue.strain_range) over the allowed range
-    zinv = np.asarray([1.0 if z.motion == "flat-to-bent" else 2.0 for z in zones])[:, None] / zallow
+    # strain-range factor of each zone: 1 flat-to-bent, 2 reversed (fatigue.strain_range)
+    zfac = np.asarray([1.0 if z.motion == "flat-to-bent" else 2.0 for z in zones])
     b, a = sp.blocks, sp.arr
     f64 = lambda v: np.ascontiguousarray(v, dtype=float)       # noqa: E731
     kind = np.asarray(kind, np.int64)
@@ -238,7 +242,7 @@ def _build(problem: Any) -> dict | None:
         strip, kind, bool(sp.unbonded), (*t["groups"], t["bonded"][-1]), np.int64(len(sp.adh_opts)), np.int64(len(sp.cover_opts)),
         bool(t["stiff"]),
         f64([float(z.inner_radius_mm * MM) for z in zones]), np.asarray([z.inside == "bottom" for z in zones]),
-        zinv, zhas,
+        zfac, zallow, zhas,
         np.asarray([material._needs_cover(study, z) for z in zones]), np.asarray([z.use == "dynamic" for z in zones]),
         float(lim.total_thickness_um * UM) if lim.total_thickness_um is not None else 1.0,
         float(lim.peak_strain_pct) if lim.peak_strain_pct is not None else 1.0,
@@ -250,6 +254,20 @@ def _build(problem: Any) -> dict | None:
     # the failing-line counts per row: which line column each row violates
     return {"args": args, "row_viol": (RT[kind == fz.LINE] > 0.0).astype(np.int64), "line": kind == fz.LINE,
             "n_rows": n_rows}
+
+
+def warm(problem: Any) -> bool:
+    """Compile (or load from numba's disk cache) the kernel for ``problem`` by running it on one
+    candidate; False when the kernel does not cover the study."""
+    plan = fused_plan(problem)
+    if plan is None:
+        return False
+    C = len(problem.constraint_names)
+    one = np.zeros(1, np.int64)
+    fz.run_range(one, one + 1, np.zeros(2, np.int64), np.asarray(problem.space.sizes, np.int64), *plan["args"],
+                 np.full(0, np.inf), np.empty(CAP, np.int64), np.zeros(C, np.int64), np.zeros(plan["n_rows"], np.int64),
+                 np.zeros(3, np.int64), np.int64(1))
+    return True
 
 
 def range_archive(problem: Any, evaluate: Any, sizes: np.ndarray, n_obj: int, pieces: list[tuple[int, int]],
@@ -301,4 +319,4 @@ def range_archive(problem: Any, evaluate: Any, sizes: np.ndarray, n_obj: int, pi
     return arch
 
 
-__all__ = ["fused_plan", "range_archive", "STEP", "CAP"]
+__all__ = ["fused_plan", "range_archive", "warm", "STEP", "CAP", "MIN_CANDIDATES"]

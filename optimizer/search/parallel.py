@@ -42,7 +42,7 @@ class ProblemEvaluator:
     """A picklable ``evaluate(x) -> (F, G)`` of a study problem (``prune``: skip the bend model
     for candidates whose line already fails, :meth:`Problem.evaluate`)."""
 
-    def __init__(self, problem: Any, prune: bool = True, fused: bool = True) -> None:
+    def __init__(self, problem: Any, prune: bool = True, fused: bool | None = None) -> None:
         self.problem = problem
         self.prune = prune
         self.fused = fused
@@ -55,11 +55,25 @@ class ProblemEvaluator:
                       archive: Any = None) -> Any:
         """Enumerate index ``pieces`` with the fused compiled kernel (:func:`.fusedplan.range_archive`;
         the same archive as the chunked evaluation), or None when the kernel does not cover the study
-        (or ``fused`` is off: then the enumeration evaluates chunks)."""
-        if not (self.prune and self.fused):
+        (then the enumeration evaluates chunks). ``fused``: True always, False never, None (default)
+        for pieces of at least :data:`.fusedplan.MIN_CANDIDATES` candidates."""
+        from strainline.optimizer.search.fusedplan import MIN_CANDIDATES, range_archive
+
+        if not self.prune or self.fused is False:
             return None
-        from strainline.optimizer.search.fusedplan import range_archive
+        if self.fused is None and sum(b - a for a, b in pieces) < MIN_CANDIDATES:
+            return None          # a small enumeration does not pay the kernel's first compilation
         return range_archive(self.problem, self, sizes, n_obj, pieces, progress, archive)
+
+    def sized(self, total: int) -> "ProblemEvaluator":
+        """This evaluator for an enumeration of ``total`` candidates in all: with the fused kernel
+        (compiled now, so a timed probe measures the kernel and forked workers inherit it) when
+        ``total`` reaches :data:`.fusedplan.MIN_CANDIDATES` and the kernel covers the study."""
+        if self.fused is not None or not self.prune:
+            return self
+        from strainline.optimizer.search.fusedplan import MIN_CANDIDATES, warm
+
+        return ProblemEvaluator(self.problem, self.prune, total >= MIN_CANDIDATES and warm(self.problem))
 
     def exact(self, x: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         """``(F, G)`` without pruning: the enumeration refines pruned rows that could be among the
