@@ -6,11 +6,14 @@ every column is <= 0). The study problem (:class:`strainline.optimizer.search.pr
 the tests and benchmarks also use small synthetic ones.
 
 * :class:`Archive` -- a streaming exact non-dominated filter (:mod:`.archive`).
-* :func:`exhaustive` -- enumerates every index of a mixed-radix space in vectorized chunks, in
-  index ranges on ``workers`` local processes or on a Dask cluster (:mod:`.parallel`); the front
-  is the same, bit for bit, however the work is split.
-* :func:`evolutionary` -- NSGA-II with categorical and ordered operators, seeded from a batched
-  random scan (:mod:`.evolutionary`).
+* :func:`exhaustive` -- enumerates every index of a mixed-radix space in vectorized chunks (or,
+  for a study problem's evaluator and a large space, the fused compiled kernel of :mod:`.fused`),
+  in index ranges on ``workers`` local processes or on a Dask cluster (:mod:`.parallel`); the
+  front is the same, bit for bit, however the work is split. Branch and bound (:mod:`.bounds`)
+  first leaves out the blocks no candidate of which can be feasible or on the front.
+* :func:`evolutionary` -- NSGA-II with categorical and ordered operators, seeded by construction
+  from the line table and the per-option thicknesses and screened by them (:mod:`.seeding`), with
+  a Pareto local search (:mod:`.localsearch`); every evaluation counts in the budget.
 * :func:`search` -- ``auto`` measures the enumeration rate on the first chunks, projects the time
   of the whole space over the workers and enumerates when that fits the time limit (default
   :data:`AUTO_TIME_LIMIT_S`); an explicit exhaustive run projected past :data:`REFUSE_S` needs

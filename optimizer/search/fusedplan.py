@@ -253,7 +253,7 @@ def _build(problem: Any) -> dict | None:
     )
     # the failing-line counts per row: which line column each row violates
     return {"args": args, "row_viol": (RT[kind == fz.LINE] > 0.0).astype(np.int64), "line": kind == fz.LINE,
-            "n_rows": n_rows}
+            "n_rows": n_rows, "line_ok": line_ok}
 
 
 def warm(problem: Any) -> bool:
