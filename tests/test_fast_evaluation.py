@@ -39,7 +39,10 @@ def _closed_form_lines():
 
 BASE = {
     "name": "fast-path",
-    "line": {"type": "microstrip", "target_ohm": 50, "width_range_um": [50, 500], "frequency_ghz": 2},
+    # a calibrated hatch factor: the hatch-width column without 3-D solves (tests/test_hatch*.py
+    # cover those), since these tests are about the mechanics
+    "line": {"type": "microstrip", "target_ohm": 50, "width_range_um": [50, 500], "frequency_ghz": 2,
+             "hatch_correction": 1.12},
     "bend": {"inner_radius_mm": 1.5, "use": "dynamic", "cycles": 5000},
     "stack": {"copper_layers": 3, "copper_weights": ["1/4oz", "1/2oz", "1oz"],
               "copper_types": ["rolled-annealed", "electrodeposited"],
