@@ -71,7 +71,6 @@ def _range(starts, stops, pos, sizes, svar, sconst, slut, lut, vdep, vptr, vline
     brow = np.zeros((K, B), np.int64)
     bidx = np.zeros(B, np.int64)
     bok = np.zeros(B, np.bool_)
-    bcv = np.zeros(B)
     g = np.zeros((C, B))
     total = np.zeros(B)
     peak = np.zeros((N, B))
@@ -168,7 +167,6 @@ def _range(starts, stops, pos, sizes, svar, sconst, slut, lut, vdep, vptr, vline
                     g[c, nb] = RT[c, rows[0]] if K == 1 else g1[c]
                 bidx[nb] = idx
                 bok[nb] = ok
-                bcv[nb] = cvlb
                 nb += 1
             elif amb:
                 emit[n_emit] = idx
@@ -185,7 +183,7 @@ def _range(starts, stops, pos, sizes, svar, sconst, slut, lut, vdep, vptr, vline
                        tabs, n_adh, n_cov, stiff, zrad, zbot, zfac, zallow, zhas, zcover, zdyn, thick_den,
                        peak_lim, sig_lim, ef, rmin, cov_bare, cov_glass, gap_glass, glass_ratio, adh_m, adh_t,
                        g, total, peak, ratio, acc)
-                n_emit = _decide(nb, g, C, kind, bok, bcv, bidx, topk, emit, n_emit, counts)
+                n_emit = _decide(nb, g, C, kind, bok, bidx, topk, emit, n_emit, counts)
                 nb = 0
             done += 1
             idx += 1
@@ -207,7 +205,7 @@ def _range(starts, stops, pos, sizes, svar, sconst, slut, lut, vdep, vptr, vline
                tabs, n_adh, n_cov, stiff, zrad, zbot, zfac, zallow, zhas, zcover, zdyn, thick_den,
                peak_lim, sig_lim, ef, rmin, cov_bare, cov_glass, gap_glass, glass_ratio, adh_m, adh_t,
                g, total, peak, ratio, acc)
-        n_emit = _decide(nb, g, C, kind, bok, bcv, bidx, topk, emit, n_emit, counts)
+        n_emit = _decide(nb, g, C, kind, bok, bidx, topk, emit, n_emit, counts)
     state[0] = piece
     state[1] = idx
     state[2] = n_emit

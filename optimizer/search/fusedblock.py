@@ -24,11 +24,10 @@ LINE, ROW, THICK, PEAK, SIG, FAT, MAT, CRAD, COVER, GLASS, LEAVES, HATCH = range
 EPS = 1e-9
 
 
-def _decide(nb, g, C, kind, bok, bcv, bidx, topk, emit, n_emit, counts):
+def _decide(nb, g, C, kind, bok, bidx, topk, emit, n_emit, counts):
     """For each of the ``nb`` bent candidates (columns of ``g``): emit it to Python or count its
     violated columns (module docstring); return the new number emitted. ``bok`` says whether its
-    line holds (else only its line columns count), ``bcv`` is unused here (kept for symmetry with
-    the line-only test), ``bidx`` its index."""
+    line holds (else only its line columns count), ``bidx`` its index."""
     nk = topk.shape[0]
     for j in range(nb):
         ok = bok[j]
