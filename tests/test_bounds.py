@@ -60,6 +60,20 @@ CASES = {
     "peak-objective-loss-limit": {"objectives": ["peak_strain", "thickness", "loss"],
                                   "limits": {"loss_db_per_m": 25}},
 }
+# several lines (a feed and a pair, each on its own outer layer, worst line's loss objective and
+# loss limit); 4 copper layers, 8 line-layer options; bonded, and unbonded with the grouping free
+LINES = [{"name": "feed", "type": "microstrip", "target_ohm": 50, "tolerance": 15, "width_range_um": [50, 400],
+          "frequency_ghz": 2.4, "hatch_correction": 1.12},
+         {"name": "pair", "type": "coupled-microstrip", "target_ohm": 90, "tolerance": 15,
+          "width_range_um": [50, 250], "gap_um": [75, 125], "frequency_ghz": 5, "hatch_correction": 1.12}]
+MULTI = {"line": None, "lines": LINES, "bend": {"inner_radius_mm": 25},
+         "stack": {"signal_layer": None, "copper_layers": 4, "dielectric": ["polyimide-film"],
+                   "adhesive": ["acrylic-adhesive"], "coverlay": ["polyimide-coverlay-acrylic"]},
+         "limits": {"total_thickness_um": 300, "peak_strain_pct": 0.5, "loss_db_per_m": 60}}
+CASES["multi-line"] = MULTI
+CASES["multi-line-unbonded"] = {**MULTI, "bend": {"inner_radius_mm": 25, "region": "unbonded"}}
+#: Cases without a strain bound in the node model (unbonded: leaves bend about their own axes).
+NO_STRAIN = ("unbonded", "multi-line-unbonded")
 
 
 def _problem(name: str):
@@ -69,6 +83,8 @@ def _problem(name: str):
             d.pop(k)
         elif isinstance(v, dict) and k in d:
             d[k].update(v)
+            for kk in [kk for kk, vv in v.items() if vv is None]:
+                d[k].pop(kk)
         else:
             d[k] = v
     with table_options(impedance="closed-form"):
@@ -91,35 +107,64 @@ def _plain(pb) -> Archive:
     return arch
 
 
-@pytest.mark.parametrize("name", [c for c in CASES if c != "unbonded"])
+def _line_columns(pb) -> list[int]:
+    """Constraint columns read from the line-table rows (every line's; the loss limit included)."""
+    own = set(pb.lines[0].constraint_names if pb.lines else []) | {"impedance", "width_range", "gap_space",
+                                                                     "equation_range", "yield", "loss"}
+    return [k for k, c in enumerate(pb.constraint_names) if c in own]
+
+
+@pytest.mark.parametrize("name", list(CASES))
 def test_lower_bounds_hold_on_every_sampled_node(name):
     # Reference: brute force -- every candidate of the node evaluated (Problem.evaluate, the
-    # Gere & Timoshenko transformed section); each bound must be <= the node's true minimum.
+    # Gere & Timoshenko transformed section, every line's table row); each bound must be <= the
+    # node's true minimum, and a node the bound calls infeasible must hold no feasible candidate.
     pb = problem(name)
     model = bnd.node_model(ProblemEvaluator(pb, prune=False))
     assert model is not None
     sizes = np.asarray(pb.space.sizes)
     rng = np.random.default_rng(5)
-    bit = 0
-    for m in range(1, 7):
+    lcols = _line_columns(pb)
+    kl = pb.objectives.index("loss")
+    bit = {"strain": 0, "thickness": 0, "line": 0, "leaves": 0, "loss": 0}
+    for m in range(1, sizes.size + 1):
         P = space_size(sizes[:m])
-        q = rng.integers(0, space_size(sizes) // P, 12)
+        if P > 20000:
+            break
+        q = rng.integers(0, space_size(sizes) // P, 12 if P < 2000 else 4)
         b = model.bounds(m, q)
         Fl = model.objective_bounds(b)
         for j, qq in enumerate(q):
             e = pb.evaluate(_digits(qq * P + np.arange(P), sizes))
             zp = e.zone_peak if e.zone_peak is not None else e.peak_strain[:, None]
             zs = e.zone_signal if e.zone_signal is not None else e.signal_strain[:, None]
+            # brute force: the least total thickness of the node's candidates (unbonded: the
+            # layer path's total, air gaps and leaf-face covers counted)
             assert b["thickness_m"][j] <= e.total_thickness_m.min()
             assert np.all(b["peak"][j] <= zp.min(axis=0))
             assert np.all(b["signal"][j] <= zs.min(axis=0))
+            # brute force: the least (quantized) loss objective over every candidate (worst line)
+            assert b["loss"][j] <= e.F[:, kl].min()
             feas = np.all(e.G <= 0, axis=1)
-            if not b["line"][j]:                    # no reachable row meets the line: nothing feasible
-                assert not feas.any()
-            if feas.any():                           # objective bounds in the quantized units
+            if not b["line"][j]:        # no reachable row of some line meets it: every candidate fails a line column
+                assert np.all(np.any(e.G[:, lcols] > 0, axis=1))
+                bit["line"] += 1
+            if not b["leaves"][j]:      # every candidate: an unbuildable grouping (constraint leaves) or a line fails
+                bad = e.G[:, pb.constraint_names.index("leaves")] > 0
+                assert np.all(bad | np.any(e.G[:, lcols] > 0, axis=1))
+                bit["leaves"] += 1
+            if feas.any():              # objective bounds in the quantized units
                 assert np.all(Fl[j] <= e.F[feas].min(axis=0))
-            bit += b["peak"][j].max() > 0.5 * zp.min()
-    assert bit > 0                                   # the strain bound is not trivially 0
+            bit["strain"] += b["peak"][j].max() > 0.5 * zp.min()
+            bit["thickness"] += b["thickness_m"][j] > 0.9 * e.total_thickness_m.min()
+            bit["loss"] += b["loss"][j] >= e.F[:, kl].min()
+    # the bounds are not trivially 0 / True (the new ones included)
+    assert bit["thickness"] > 0 and bit["loss"] > 0
+    assert (bit["strain"] > 0) == (name not in NO_STRAIN)
+    if name.startswith("multi-line"):
+        assert bit["line"] > 0
+    if name == "multi-line-unbonded":
+        assert bit["leaves"] > 0
 
 
 @pytest.mark.parametrize("name", list(CASES))
@@ -129,9 +174,6 @@ def test_front_with_bounds_equals_plain_enumeration(name):
     sizes = np.asarray(pb.space.sizes)
     ref = _plain(pb)
     model = bnd.node_model(ProblemEvaluator(pb, prune=False))
-    if model is None:                          # unbonded: only the additive thickness bound applies
-        assert pb.space.unbonded
-        return
     for m_final in (1, 4):
         # known points: the exact front itself and a few other feasible points (the strongest
         # dominance the bound can see, ties with smaller indices included)
@@ -142,13 +184,19 @@ def test_front_with_bounds_equals_plain_enumeration(name):
         assert info["skipped"] == pb.space.size - sum(b - a for a, b in r)
         assert info["skipped"] == sum(info["skipped_by"].values())
         assert info["skipped"] > 0
-        if m_final == 1:            # the exact front dominates some nodes; the signal limit bites
+        if m_final == 1 and name not in NO_STRAIN:   # the exact front dominates some nodes; the signal limit bites
             assert info["skipped_by"]["dominance"] > 0
             if "signal_strain" in pb.constraint_names:
                 assert info["skipped_by"]["strain"] > 0
+        if name in NO_STRAIN:                        # the unbonded thickness bound bites
+            assert info["skipped_by"]["thickness"] > 0
+        if name == "multi-line-unbonded":            # groupings next to a line's copper are unbuildable
+            assert info["skipped_by"]["leaves"] > 0
+        if name.startswith("multi-line"):            # the multi-line row bound bites
+            assert info["skipped_by"]["line"] > 0
 
 
-@pytest.mark.parametrize("name", ["bonded", "unbonded", "two-zones"])
+@pytest.mark.parametrize("name", ["bonded", "unbonded", "two-zones", "multi-line-unbonded"])
 def test_search_with_bounds_equals_plain_front(name, monkeypatch):
     # Reference: plain enumeration. The engine's bound path (evolutionary pre-run for the known
     # points, branch and bound, enumeration of the rest) on a space small enough for the test.
@@ -165,8 +213,7 @@ def test_search_with_bounds_equals_plain_front(name, monkeypatch):
     np.testing.assert_array_equal(res.archive.F, ref.F)
     b = res.info["bounds"]
     assert b["skipped"] > 0
-    if not pb.space.unbonded:
-        assert set(b["skipped_by"]) == set(bnd.KINDS)
+    assert set(b["skipped_by"]) == set(bnd.KINDS)
 
 
 def test_dominance_respects_index_ties():

@@ -16,8 +16,10 @@ skipped when a lower bound proves that none of its candidates can be feasible:
   variable free) down to blocks of at least :data:`MIN_BLOCK`, each node gets rigorous lower
   bounds over all its completions (:class:`.boundstrain.NodeModel`) and is skipped, with all its
   subtree, when one proves that no candidate of it is feasible -- ``thickness`` (total thickness
-  limit), ``line`` (no reachable line-table row meets the line constraints or the loss limit),
-  ``strain`` (peak or signal copper strain, or the fatigue range, over its limit) -- or that none
+  limit; unbonded regions too), ``line`` (for some line of the study no reachable row of its
+  table meets the line constraints or the loss limit), ``leaves`` (unbonded: the leaf grouping
+  cannot be built, :mod:`.boundrows`), ``strain`` (bonded regions: peak or signal copper strain,
+  or the fatigue range, over its limit) -- or that none
   can enter the front -- ``dominance``: a known feasible point ``p`` (true evaluations, e.g. an
   evolutionary pre-run) with ``p <= lb`` in every quantized objective and either ``p < lb`` in
   one or an index below the node's first (the archive keeps, of equal objective vectors, the
@@ -133,7 +135,7 @@ def surviving_ranges(evaluate: Evaluator, sizes: np.ndarray, col: int, seed: int
 # --------------------------------------------------------------------------------------------
 # branch and bound over the tree (study problems)
 #: The bound kinds, in the order a node's skip is attributed.
-KINDS = ("thickness", "line", "strain", "dominance")
+KINDS = ("thickness", "line", "leaves", "strain", "dominance")
 
 
 class BoundTimeout(Exception):
@@ -142,14 +144,14 @@ class BoundTimeout(Exception):
 
 def node_model(evaluate: Any) -> Any:
     """The :class:`.boundstrain.NodeModel` of a study evaluator (``evaluate.problem``), or None
-    when the evaluator is not a study problem or the model bounds neither mechanics nor lines."""
+    when the evaluator is not a study problem or its space has a variable the model does not know."""
     pb = getattr(evaluate, "problem", None)
     if pb is None or not hasattr(pb, "space"):
         return None
     from strainline.optimizer.search.boundstrain import NodeModel
 
     model = NodeModel(pb)
-    return model if model.mech else None
+    return model if model.deps is not None else None
 
 
 def known_points(evaluate: Evaluator, exact: Evaluator, sizes: np.ndarray, n_obj: int, n_con: int, seed: int,
@@ -202,10 +204,13 @@ def _reasons(model: Any, m: int, q: np.ndarray, P: list[int], KF: np.ndarray | N
     cons = pb.constraint_names
     b = model.bounds(m, q)
     why = np.zeros(q.size, np.int8)
+    code = {k: c for c, k in enumerate(KINDS, 1)}
     tests = []
     if "total_thickness" in cons:
-        tests.append((1, b["thickness_m"] / (lim.total_thickness_um * 1e-6) - 1.0 > SLACK))
-    tests.append((2, ~b["line"]))
+        tests.append((code["thickness"], b["thickness_m"] / (lim.total_thickness_um * 1e-6) - 1.0 > SLACK))
+    tests.append((code["line"], ~b["line"]))
+    if "leaves" in cons:
+        tests.append((code["leaves"], ~b["leaves"]))
     s = np.zeros(q.size, bool)
     if "peak_strain" in cons:
         s |= b["peak"].max(axis=1) * 100.0 / lim.peak_strain_pct - 1.0 > SLACK
@@ -213,15 +218,15 @@ def _reasons(model: Any, m: int, q: np.ndarray, P: list[int], KF: np.ndarray | N
         s |= b["signal"].max(axis=1) * 100.0 / lim.signal_strain_pct - 1.0 > SLACK
     if "fatigue_life" in cons:
         s |= b["fatigue"] - 1.0 > SLACK
-    tests.append((3, s))
-    for code, hit in tests:
-        why[(why == 0) & hit] = code
+    tests.append((code["strain"], s))
+    for c, hit in tests:
+        why[(why == 0) & hit] = c
     if KF is not None:
         rest = why == 0
         if rest.any():
             Fl = model.objective_bounds({k: v[rest] for k, v in b.items()})
             d = _dominated(Fl, q[rest] * P[m], KF, Ki)
-            why[np.flatnonzero(rest)[d]] = 4
+            why[np.flatnonzero(rest)[d]] = code["dominance"]
     return why
 
 
@@ -285,4 +290,4 @@ def node_ranges(model: Any, sizes: np.ndarray, known: tuple[np.ndarray, np.ndarr
     return ranges, {"skipped": int(skip), "skipped_by": skipped, "blocks": int(total // Pf),
                     "blocks_skipped": int(total // Pf - keep.size), "block_size": int(Pf),
                     "nodes_bounded": int(stats["nodes"]), "bound_seconds": round(time.perf_counter() - t0, 3),
-                    "reason": "branch and bound: thickness, line, strain and dominance lower bounds per node"}
+                    "reason": "branch and bound: thickness, line, leaves, strain and dominance bounds per node"}

@@ -20,14 +20,17 @@ returns, for a batch of nodes, rigorous lower bounds over all ``P_m`` candidates
   takes its optimum at a vertex where the weights below the optimum are at their upper end,
   Dinkelbach 1967). The denominator is at most ``R + T`` (``0 <= y_NA <= T``) for either face.
   Every strain bound is scaled by ``1 - 1e-9`` against rounding.
-* **line rows** (one-line studies) -- the line-table row is a mixed-radix number of slot options
-  (:meth:`.linetable.LineTable.index`); over a node the free slots range over their whole axis, so
-  the least quantized loss and "some row meets every line constraint" come from the table reduced
-  over those axes.
+* **line rows** (one or several lines), **unbonded thickness** and **leaf buildability** --
+  :mod:`.boundrows` (the least reachable loss and "some row of every line passes" from each line's
+  table reduced over the free slots; the bonded thickness bound plus the cover builds the leaf
+  boundaries add; groupings that put a boundary next to a line's copper). An unbonded region gets
+  no strain bound: each leaf bends about its own axis (the groups' weights change with the leaf a
+  gap falls in), which the single-axis relaxation above does not cover.
 
-The signal layer (and ``line_layers``) is enumerated: the bound of a node is the least over its
-values. A slot shared by two variables of the node (a symmetric stack's mirrored layers) is
-bounded as if they were independent -- a relaxation, still a valid bound.
+The signal layer, ``line_layers`` and the leaf grouping (``leaves``) are enumerated: the bound of
+a node is the least over their values. A slot shared by two variables of the node (a symmetric
+stack's mirrored layers) is bounded as if they were independent -- a relaxation, still a valid
+bound.
 """
 from __future__ import annotations
 
@@ -38,13 +41,14 @@ import numpy as np
 
 from strainline.models.fatigue import strain_range
 from strainline.models.units import MM, UM
+from strainline.optimizer.search.boundrows import LineBounds, leaves_buildable, unbonded_extra
 from strainline.optimizer.search.exhaustive import _digits
 from strainline.optimizer.search.evaluation import quantize
 from strainline.optimizer.inputs.study import OBJECTIVE_RESOLUTION
 
 #: Relative safety of the strain and thickness bounds (the evaluation agrees with itself to 1e-12).
 SAFE = 1.0 - 1e-9
-_ENUM = ("signal_layer", "line_layers")
+_ENUM = ("signal_layer", "line_layers", "leaves")
 
 
 def _deps(space: Any) -> dict[int, set] | None:
@@ -71,10 +75,11 @@ def _deps(space: Any) -> dict[int, set] | None:
             out[k] = {"cover_bot"}
         elif base == "coverage":
             out[k] = {"cov"}
-        elif name == "line_gap" or base == "gap":
+        elif name == "line_gap":
             out[k] = {"gap_opt"}
-        elif name == "leaves":
-            out[k] = {"leaves"}
+        elif base == "gap":                # several lines: line k's pair gap (:mod:`.boundrows`)
+            names = [ln.name for ln in space.study.lines]
+            out[k] = {("gap_opt", names.index(arg))} if arg in names else {"gap_opt"}
         else:
             return None
     return out
@@ -128,7 +133,8 @@ class NodeModel:
         self.names = [v.name for v in sp.variables]
         self.deps = _deps(sp)
         self.mech = self.deps is not None and not sp.unbonded and sp.n_cu >= 1
-        self.rows = self.deps is not None and not problem.lines
+        self.rows = self.deps is not None
+        self.unb = self.deps is not None and sp.unbonded
         b = sp.blocks
         from strainline.optimizer.search.faststrain import fast_tables
         f = problem.fast if problem.fast is not None else fast_tables(sp)
@@ -144,66 +150,9 @@ class NodeModel:
         self.cov_rng = (float(min(sp.cov_opts)), float(max(sp.cov_opts))) if len(sp.cov_opts) else (1.0, 1.0)
         self.n_cov = len(sp.cover_opts)
         self._gap_cache: dict = {}
-        self._row_cache: dict = {}
         self.zones = [(z.inner_radius_mm * MM, z.motion) for z in sp.study.bends]
         self.allowed = problem.allowed_range if "fatigue_life" in problem.constraint_names else None
-        if self.rows:
-            self._row_tables()
-
-    # ------------------------------------------------------------------------- line-table rows
-    def _row_tables(self) -> None:
-        pb, tb, study = self.pb, self.pb.table, self.sp.study
-        rows = np.arange(tb.n_rows)
-        g = pb._line_constraints(rows)
-        ok = np.ones(tb.n_rows, bool)
-        for v in g.values():
-            ok &= np.asarray(v) <= 0
-        loss = np.asarray(tb.loss_db_per_m, float)
-        if "loss" in pb.constraint_names:
-            ok &= loss / study.limits.loss_db_per_m - 1.0 <= 0
-        self.row_ok = ok
-        self.row_loss = (pb.fast["loss_q"] if pb.fast is not None and "loss_q" in pb.fast
-                         else quantize(loss, OBJECTIVE_RESOLUTION["loss"]))
-
-    def _row_key(self, slot: str, col: int) -> Any:
-        if slot in ("cu", "film", "adh", "place"):
-            return (slot, col)
-        if slot == "cover":
-            return "cover_top" if col == 0 else "cover_bot"
-        return "gap_opt"
-
-    def _rows(self, slots: dict, free: set) -> tuple[np.ndarray, np.ndarray]:
-        """Least loss and 'some row passes the line' of every node, from the base slots."""
-        tb = self.pb.table
-        from strainline.optimizer.search.linetable import _digit
-        sig = slots["signal"]
-        n = sig.shape[0]
-        loss, ok = np.full(n, np.inf), np.zeros(n, bool)
-        for s, dims in tb.dims.items():
-            sel = np.flatnonzero(sig == s)
-            if not len(sel):
-                continue
-            fr = tuple(self._row_key(sl, c) in free for sl, c, _ in dims)
-            key = (s, fr)
-            if key not in self._row_cache:
-                shape = tuple(size for _, _, size in dims)[::-1]
-                off = tb.offset[s]
-                cnt = int(np.prod(shape)) if shape else 1
-                L = self.row_loss[off:off + cnt].reshape(shape)
-                K = self.row_ok[off:off + cnt].reshape(shape)
-                axes = tuple(len(dims) - 1 - j for j, f_ in enumerate(fr) if f_)
-                self._row_cache[key] = (L.min(axis=axes, keepdims=True).ravel() if axes else L.ravel(),
-                                        K.any(axis=axes, keepdims=True).ravel() if axes else K.ravel())
-            Lr, Kr = self._row_cache[key]
-            idx = np.zeros(len(sel), np.int64)
-            stride = 1
-            sub = {k: v[sel] for k, v in slots.items()}
-            for (sl, c, size), f_ in zip(dims, fr):
-                if not f_:
-                    idx += _digit(sub, sl, c, tb.place_lut) * stride
-                    stride *= size
-            loss[sel], ok[sel] = Lr[idx], Kr[idx]
-        return loss, ok
+        self.lines = LineBounds(problem) if self.rows else None
 
     # ------------------------------------------------------------------------- mechanics
     def _cover(self, tab: dict, code: np.ndarray, free: bool) -> dict:
@@ -317,14 +266,18 @@ class NodeModel:
     def bounds(self, m: int, q: np.ndarray) -> dict[str, np.ndarray]:
         """Lower bounds over the nodes ``q`` (prefixes) at level ``m``: ``thickness_m``,
         ``peak``/``signal`` per zone (n, Z) fractions, ``fatigue`` (largest range over allowed),
-        ``loss`` (quantized, dB/m) and ``line`` (False: no row of the node meets the line)."""
+        ``loss`` (quantized, dB/m), ``line`` (False: for some line no row of the node meets it)
+        and ``leaves`` (False: every completion has an unbuildable leaf grouping or fails ``line``;
+        the enumerated variables are tested together with the line)."""
         q = np.asarray(q, np.int64)
         n = q.size
         free, enum = self.free_slots(m)
         Z = len(self.zones)
         out = {"thickness_m": np.full(n, np.inf), "peak": np.full((n, Z), np.inf),
                "signal": np.full((n, Z), np.inf), "fatigue": np.full(n, np.inf),
-               "loss": np.full(n, np.inf), "line": np.zeros(n, bool)}
+               "loss": np.full(n, np.inf), "line": np.zeros(n, bool), "leaves": np.zeros(n, bool)}
+        if not self.unb:
+            out["leaves"][:] = True
         x = np.zeros((n, self.sizes.size), np.int64, order="F")
         x[:, m:] = _digits(q, self.sizes[m:])
         for combo in itertools.product(*[range(int(self.sizes[k])) for k in enum]):
@@ -332,14 +285,22 @@ class NodeModel:
                 x[:, k] = v
             slots = self.sp.slots(x)
             if self.rows:
-                loss, ok = self._rows(slots, free)
+                loss, ok = self.lines(slots, free)
                 np.minimum(out["loss"], loss, out=out["loss"])
                 out["line"] |= ok
             else:
                 out["loss"][:] = -np.inf
-                out["line"][:] = True
+                out["line"][:] = ok = True
+            if self.unb:        # buildable with a row of every line passing, for this enumerated value
+                out["leaves"] |= leaves_buildable(self.sp, slots, free) & ok
             if not self.mech:
-                out["thickness_m"][:] = 0.0
+                if self.unb:           # bonded groups plus the cover builds the leaf boundaries add
+                    groups, _ = self._groups(slots, free)
+                    T = np.sum([g["T_lo"] for g in groups], axis=0)
+                    T = T + unbonded_extra(self.sp, slots, free, groups[-1]["T_lo"], groups[0]["T_lo"])
+                    np.minimum(out["thickness_m"], T * SAFE, out=out["thickness_m"])
+                else:
+                    out["thickness_m"][:] = 0.0
                 out["peak"][:] = 0.0
                 out["signal"][:] = 0.0
                 out["fatigue"][:] = 0.0
@@ -375,7 +336,7 @@ class NodeModel:
                 v = b["peak" if o == "peak_strain" else "signal"]
                 v = v[:, pick] if pick is not None else v.max(axis=1)
                 F[:, k] = quantize(v * 100.0, res)
-            elif o == "thickness" and self.mech:
+            elif o == "thickness" and (self.mech or self.unb):
                 F[:, k] = quantize(b["thickness_m"] / UM, res)
             elif o == "loss" and self.rows:
                 F[:, k] = b["loss"]
