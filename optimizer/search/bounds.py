@@ -18,8 +18,8 @@ skipped when a lower bound proves that none of its candidates can be feasible:
   subtree, when one proves that no candidate of it is feasible -- ``thickness`` (total thickness
   limit; unbonded regions too), ``line`` (for some line of the study no reachable row of its
   table meets the line constraints or the loss limit), ``leaves`` (unbonded: the leaf grouping
-  cannot be built, :mod:`.boundrows`), ``strain`` (bonded regions: peak or signal copper strain,
-  or the fatigue range, over its limit) -- or that none
+  cannot be built, :mod:`.boundrows`), ``strain`` (peak or signal copper strain, or the fatigue
+  range, over its limit; per leaf in unbonded regions, :mod:`.boundleaf`) -- or that none
   can enter the front -- ``dominance``: a known feasible point ``p`` (true evaluations, e.g. an
   evolutionary pre-run) with ``p <= lb`` in every quantized objective and either ``p < lb`` in
   one or an index below the node's first (the archive keeps, of equal objective vectors, the

@@ -23,9 +23,9 @@ returns, for a batch of nodes, rigorous lower bounds over all ``P_m`` candidates
 * **line rows** (one or several lines), **unbonded thickness** and **leaf buildability** --
   :mod:`.boundrows` (the least reachable loss and "some row of every line passes" from each line's
   table reduced over the free slots; the bonded thickness bound plus the cover builds the leaf
-  boundaries add; groupings that put a boundary next to a line's copper). An unbonded region gets
-  no strain bound: each leaf bends about its own axis (the groups' weights change with the leaf a
-  gap falls in), which the single-axis relaxation above does not cover.
+  boundaries add; groupings that put a boundary next to a line's copper).
+* **copper strains** (unbonded regions) -- the same weighted-mean bound per leaf, each copper
+  about its own leaf's axis, on the group list split at the leaf boundaries (:mod:`.boundleaf`).
 
 The signal layer, ``line_layers`` and the leaf grouping (``leaves``) are enumerated: the bound of
 a node is the least over their values. A slot shared by two variables of the node (a symmetric
@@ -41,6 +41,7 @@ import numpy as np
 
 from strainline.models.fatigue import strain_range
 from strainline.models.units import MM, UM
+from strainline.optimizer.search.boundleaf import leaf_groups, leaf_strains, wmin as _wmin
 from strainline.optimizer.search.boundrows import LineBounds, leaves_buildable, unbonded_extra
 from strainline.optimizer.search.exhaustive import _digits
 from strainline.optimizer.search.evaluation import quantize
@@ -102,27 +103,6 @@ def _reduce(tab: dict[str, np.ndarray], axes: tuple[int, ...]) -> dict[str, np.n
     return out
 
 
-def _wmin(e: np.ndarray, wl: np.ndarray, wh: np.ndarray) -> np.ndarray:
-    """Least weighted mean ``sum w e / sum w`` over weights ``wl <= w <= wh`` (rows; exact): the
-    optimum puts the upper weight on the smallest values, so it is the least of the G + 1
-    threshold vertices over the values sorted. Rows whose weights may all be 0 give -inf."""
-    order = np.argsort(e, axis=1)
-    es = np.take_along_axis(e, order, axis=1)
-    ls = np.take_along_axis(wl, order, axis=1)
-    hs = np.take_along_axis(wh, order, axis=1)
-    z = np.zeros((e.shape[0], 1))
-    hi_num = np.concatenate([z, np.cumsum(hs * es, axis=1)], axis=1)
-    hi_den = np.concatenate([z, np.cumsum(hs, axis=1)], axis=1)
-    lo_num = np.concatenate([np.cumsum((ls * es)[:, ::-1], axis=1)[:, ::-1], z], axis=1)
-    lo_den = np.concatenate([np.cumsum(ls[:, ::-1], axis=1)[:, ::-1], z], axis=1)
-    num, den = hi_num + lo_num, hi_den + lo_den
-    with np.errstate(divide="ignore", invalid="ignore"):
-        mean = np.where(den > 0, num / np.where(den > 0, den, 1.0), np.inf)
-    out = mean.min(axis=1)
-    out[lo_den[:, 0] <= 0] = -np.inf          # every weight may be 0: no bound
-    return out
-
-
 class NodeModel:
     """Lower bounds over nodes of a study problem's space (see module docstring)."""
 
@@ -144,6 +124,12 @@ class NodeModel:
         self.cb = _group_table(f["cb_T"], f["cb_S"], f["cb_M"])
         self.gap = {q: v.reshape(self.n_film, self.n_adh, 3)
                     for q, v in _group_table(f["gap_T"], f["gap_S"], f["gap_M"]).items()}
+        if sp.unbonded:     # the parts of a gap split at a leaf boundary (:mod:`.boundleaf`)
+            zero = np.zeros_like(f["gap_tup"])
+            self.parts = {k: {q: v.reshape(self.n_film, self.n_adh, 3) for q, v in _group_table(*tab).items()}
+                          for k, tab in {"gapU": (f["gapU_T"], f["gapU_S"], f["gapU_M"]),
+                                         "gapD": (f["gapD_T"], f["gapD_S"], f["gapD_M"]),
+                                         "tup": (f["gap_tup"], zero, zero), "tdn": (f["gap_tdn"], zero, zero)}.items()}
         self.cu_t, self.cu_E = np.asarray(b["cu_t"], float), np.asarray(b["cu_E"], float)
         self.fill = np.asarray(b["fill"], float)
         self.fill_rng = (float(self.fill.min()), float(self.fill.max()))
@@ -161,14 +147,21 @@ class NodeModel:
         return {q + s: np.take(v, code) for q, v in tab.items() for s in ("_lo", "_hi")}
 
     def _gap(self, film: np.ndarray, adh: np.ndarray, place: np.ndarray, fr: tuple[bool, bool, bool]) -> dict:
-        if fr not in self._gap_cache:
-            self._gap_cache[fr] = _reduce(self.gap, tuple(a for a in range(3) if fr[a]))
-        red = self._gap_cache[fr]
+        return self.part("gap", film, adh, place, fr)
+
+    def part(self, key: str, film: np.ndarray, adh: np.ndarray, place: np.ndarray,
+             fr: tuple[bool, bool, bool]) -> dict:
+        """Intervals of a gap table (``gap`` or a boundary part, :mod:`.boundleaf`) per node,
+        over the free film, adhesive and placement axes ``fr``."""
+        if (key, fr) not in self._gap_cache:
+            tab = self.gap if key == "gap" else self.parts[key]
+            self._gap_cache[(key, fr)] = _reduce(tab, tuple(a for a in range(3) if fr[a]))
+        red = self._gap_cache[(key, fr)]
         i = [np.zeros_like(film) if fr[0] else film, np.zeros_like(adh) if fr[1] else adh,
              np.zeros_like(place) if fr[2] else place]
         return {k: v[i[0], i[1], i[2]] for k, v in red.items()}
 
-    def _groups(self, slots: dict, free: set) -> tuple[list, dict]:
+    def _groups(self, slots: dict, free: set, wide: Any = ()) -> tuple[list, dict]:
         """Bottom-up group intervals: (T_lo, T_hi, S_lo, S_hi, r_lo, r_hi, tr_lo, tr_hi) and copper data."""
         N = self.sp.n_cu
         n = slots["signal"].shape[0]
@@ -196,7 +189,7 @@ class NodeModel:
                 ch = np.where(is_sig, ch, np.maximum(ch, self.cov_rng[1]))
             upf = ctf if i == 0 else any(gfree[i - 1])
             dnf = cbf if i == N - 1 else any(gfree[i])
-            if upf or dnf:
+            if upf or dnf or i in wide:       # wide: may face a leaf-face cover build (unbonded)
                 fl, fh = np.full(n, self.fill_rng[0]), np.full(n, self.fill_rng[1])
             else:
                 up = slots["cover_top"] if i == 0 else gcode[i - 1]
@@ -251,6 +244,27 @@ class NodeModel:
             dist[:, i] = gap_ + half_l
         return Tl.sum(axis=1), Th.sum(axis=1), dist
 
+    def _unbonded(self, slots: dict, free: set) -> tuple[np.ndarray, np.ndarray, np.ndarray, dict]:
+        """Unbonded region, per leaf grouping of the nodes: the thickness lower bound (bonded
+        groups plus the leaf-face cover builds, :func:`.boundrows.unbonded_extra`), a total
+        thickness upper bound and the per-leaf copper distances (:mod:`.boundleaf`)."""
+        N = self.sp.n_cu
+        n = slots["signal"].shape[0]
+        Tlo, Thi, dist = np.empty(n), np.empty(n), np.empty((n, N))
+        lv = slots["leaves"]
+        for v in np.unique(lv):
+            sel = np.flatnonzero(lv == v)
+            sub = {k: a[sel] for k, a in slots.items()}
+            mask = tuple(bool(b) for b in self.sp.arr["leaf_mask"][v])
+            wide = {i for i in range(N) if (i > 0 and mask[i - 1]) or (i < N - 1 and mask[i])}
+            groups, _ = self._groups(sub, free, wide)
+            T = np.sum([np.broadcast_to(g["T_lo"], (len(sel),)) for g in groups], axis=0)
+            Tlo[sel] = T + unbonded_extra(self.sp, sub, free, groups[-1]["T_lo"], groups[0]["T_lo"])
+            lg, leaf, pos = leaf_groups(self, sub, free, mask, groups)
+            Thi[sel], dist[sel] = leaf_strains(lg, leaf, pos)
+        signals = slots["signals"] if "signals" in slots else slots["signal"][:, None]
+        return Tlo, Thi, dist, {"signals": signals, "cu": slots["cu"]}
+
     # ------------------------------------------------------------------------- public
     def free_slots(self, m: int) -> tuple[set, list[int]]:
         """Slots free at level ``m`` (first m variables free) and the enumerated variables."""
@@ -293,20 +307,15 @@ class NodeModel:
                 out["line"][:] = ok = True
             if self.unb:        # buildable with a row of every line passing, for this enumerated value
                 out["leaves"] |= leaves_buildable(self.sp, slots, free) & ok
-            if not self.mech:
-                if self.unb:           # bonded groups plus the cover builds the leaf boundaries add
-                    groups, _ = self._groups(slots, free)
-                    T = np.sum([g["T_lo"] for g in groups], axis=0)
-                    T = T + unbonded_extra(self.sp, slots, free, groups[-1]["T_lo"], groups[0]["T_lo"])
-                    np.minimum(out["thickness_m"], T * SAFE, out=out["thickness_m"])
-                else:
-                    out["thickness_m"][:] = 0.0
-                out["peak"][:] = 0.0
-                out["signal"][:] = 0.0
-                out["fatigue"][:] = 0.0
+            if self.unb:
+                Tlo, Thi, dist, cd = self._unbonded(slots, free)
+            elif self.mech:
+                groups, cd = self._groups(slots, free)
+                Tlo, Thi, dist = self._strains(groups)
+            else:
+                for k in ("thickness_m", "peak", "signal", "fatigue"):
+                    out[k][:] = 0.0
                 continue
-            groups, cd = self._groups(slots, free)
-            Tlo, Thi, dist = self._strains(groups)
             np.minimum(out["thickness_m"], Tlo * SAFE, out=out["thickness_m"])
             sig = cd["signals"]
             fat = np.zeros(n)
@@ -332,7 +341,7 @@ class NodeModel:
         F = np.full((n, pb.n_obj), -np.inf)
         for k, o in enumerate(pb.objectives):
             res = OBJECTIVE_RESOLUTION[o]
-            if o in ("peak_strain", "signal_strain") and self.mech:
+            if o in ("peak_strain", "signal_strain") and (self.mech or self.unb):
                 v = b["peak" if o == "peak_strain" else "signal"]
                 v = v[:, pick] if pick is not None else v.max(axis=1)
                 F[:, k] = quantize(v * 100.0, res)
